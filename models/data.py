@@ -1,0 +1,140 @@
+"""Validated numbers for the product-mix model, as numpy arrays (no I/O).
+
+Notation (per product i, per resource r; one planning period):
+
+==========  =====================================================  =================
+symbol      meaning                                                unit
+==========  =====================================================  =================
+a_i         price intercept (price at which demand falls to zero)  currency / unit
+b_i         price slope (price drop per extra unit), ≥ 0          currency / unit²
+v_i         variable cost                                          currency / unit
+F_i         fixed cost avoided by shutting down, ≥ 0               currency
+L_i         committed volume (forces the product to run)           units
+M_i         minimum run when running                               units
+C_i         market or contract cap (inf if none)                   units
+h_ri        usage of resource r per unit of product i, ≥ 0        resource unit / unit
+H_r         capacity of resource r                                 resource unit
+==========  =====================================================  =================
+
+Derived here, because they are part of the formulation: the upper bound U_i,
+as tight as every limit allows (for the on/off links of the MILP), a looser
+bound for the continuous QP that never competes with a capacity row for its
+dual, and which products have a real on/off choice.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+
+@dataclass(frozen=True)
+class MixData:
+    """The product-mix data; usage is sparse (COO triplets)."""
+
+    products: tuple[str, ...]
+    resources: tuple[str, ...]
+    a: np.ndarray
+    b: np.ndarray
+    v: np.ndarray
+    F: np.ndarray
+    committed: np.ndarray
+    min_run: np.ndarray
+    cap: np.ndarray
+    must_run: np.ndarray
+    use_res: np.ndarray
+    use_prod: np.ndarray
+    use_amt: np.ndarray
+    capacity: np.ndarray
+    upper: np.ndarray = field(init=False)
+    qp_upper: np.ndarray = field(init=False)
+    can_stop: np.ndarray = field(init=False)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "upper", tight_upper(self))
+        object.__setattr__(self, "qp_upper", np.minimum(self.cap, peak_bound(self)))
+        stop = ~self.must_run & ((self.F > 0) | (self.min_run > 0))
+        object.__setattr__(self, "can_stop", stop)
+
+    @property
+    def n(self) -> int:
+        return len(self.products)
+
+    @property
+    def margin(self) -> np.ndarray:
+        """Unit margin at zero volume, a − v (currency/unit)."""
+        return self.a - self.v
+
+    @property
+    def run_floor(self) -> np.ndarray:
+        """Smallest volume when running: max(L_i, M_i) (units)."""
+        return np.maximum(self.committed, self.min_run)
+
+    def usage_dense(self) -> np.ndarray:
+        """Usage as a dense (resources × products) array; for small models and tests."""
+        out = np.zeros((len(self.resources), self.n))
+        np.add.at(out, (self.use_res, self.use_prod), self.use_amt)
+        return out
+
+    def used(self, volume: np.ndarray) -> np.ndarray:
+        """Amount of each resource used by the volumes Σ_i h_ri·D_i (resource units)."""
+        out = np.zeros(len(self.resources))
+        np.add.at(out, self.use_res, self.use_amt * volume[self.use_prod])
+        return out
+
+    def contribution(self, volume: np.ndarray) -> np.ndarray:
+        """Contribution (a − v)·D − b·D² of each product (currency), before fixed cost."""
+        return self.margin * volume - self.b * volume * volume
+
+    def with_capacity(self, capacity: np.ndarray) -> "MixData":
+        """The same data with other capacities (the bounds are recomputed)."""
+        return MixData(self.products, self.resources, self.a, self.b, self.v, self.F, self.committed,
+                       self.min_run, self.cap, self.must_run, self.use_res, self.use_prod, self.use_amt,
+                       np.asarray(capacity, dtype=float))
+
+
+def peak_bound(d: MixData) -> np.ndarray:
+    """max(L_i, M_i, (a_i − v_i)/(2 b_i)) for b_i > 0; 0 if a fixed price never pays; else inf (units).
+
+    No optimal plan makes more: beyond the peak of its contribution a product
+    loses money on each extra unit and uses more of every resource.  Unlike
+    the resource-derived bounds, this bound never takes a capacity's dual.
+    """
+    floor = np.maximum(d.committed, d.min_run)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        peak = np.where(d.b > 0, d.margin / (2 * np.where(d.b > 0, d.b, 1.0)), np.inf)
+    peak = np.where((d.b == 0) & (d.margin <= 0), 0.0, peak)
+    return np.maximum(floor, np.maximum(peak, 0.0))
+
+
+def committed_floor(d: MixData) -> np.ndarray:
+    """Volume every plan must make: max(L_i, M_i) for products that must run, else 0 (units)."""
+    return np.where(d.must_run, np.maximum(d.committed, d.min_run), 0.0)
+
+
+def tight_upper(d: MixData) -> np.ndarray:
+    """Upper bound U_i on each volume that no optimal plan exceeds (units).
+
+    U_i = min( C_i,
+               min over r with h_ri > 0 of (H_r − Σ_{j≠i} h_rj·B_j) / h_ri,
+               max(L_i, M_i, (a_i − v_i)/(2 b_i)) if b_i > 0 ).
+    where B_j is the committed floor of product j (see ``committed_floor``).
+    The last term holds because beyond the peak of the contribution, more
+    volume lowers profit and uses more of every resource.  If (a − v) ≤ 0 and
+    nothing is committed the bound is 0: the product never pays.
+    The result may be inf only for a fixed-price product with no cap and no
+    resource use, which validation refuses.
+    """
+    n = d.n
+    upper = d.cap.astype(float).copy()
+    base = committed_floor(d)
+    committed_use = d.used(base)
+    pos = d.use_amt > 0
+    r, i, h = d.use_res[pos], d.use_prod[pos], d.use_amt[pos]
+    room = (d.capacity[r] - committed_use[r] + h * base[i]) / h
+    res_bound = np.full(n, np.inf)
+    np.minimum.at(res_bound, i, room)
+    upper = np.minimum(upper, res_bound)
+    upper = np.minimum(upper, peak_bound(d))
+    return np.maximum(upper, 0.0)

@@ -1,0 +1,110 @@
+r"""The product-mix model of record (Pyomo): validated data in, model out.
+
+Sets: products P, resources R.  Variables: ``volume[i]`` D_i ≥ 0 (units),
+``running[i]`` y_i ∈ {0, 1} for products with a real on/off choice (others
+run: y_i = 1 as a constant).
+
+.. math::
+
+    \max \; & \sum_{i \in P} (a_i - v_i) D_i - b_i D_i^2 - F_i y_i \\
+    \text{capacity}_r: \; & \sum_{i} h_{ri} D_i \le H_r \quad \forall r \in R \\
+    \text{volume\_cap}_i: \; & D_i \le U_i y_i \\
+    \text{run\_floor}_i: \; & D_i \ge \max(L_i, M_i) \, y_i
+
+Revenue a·D − b·D² is the price–demand line p = a − b·D times volume; the
+price follows from the volume.  With ``slate`` given, y is fixed data (the
+model is then a convex QP with bounds only, no integer columns: HiGHS keeps a
+fixed binary integer, so we never build one to fix it).  With
+``integer=False`` the binaries are relaxed to [0, 1].
+
+The objective has no constant: the plant-wide fixed cost is added by the
+planner.  No I/O, no printing.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+import pyomo.environ as pyo
+from pyomo.core.expr.numeric_expr import LinearExpression
+
+from .data import MixData
+
+
+def usage_by_resource(d: MixData) -> list[tuple[np.ndarray, np.ndarray]]:
+    """For each resource r: (product indices, amounts per unit) with h_ri > 0."""
+    order = np.argsort(d.use_res, kind="stable")
+    res, prod, amt = d.use_res[order], d.use_prod[order], d.use_amt[order]
+    bounds = np.searchsorted(res, np.arange(len(d.resources) + 1))
+    out = []
+    for r in range(len(d.resources)):
+        sl = slice(bounds[r], bounds[r + 1])
+        keep = amt[sl] != 0
+        out.append((prod[sl][keep], amt[sl][keep]))
+    return out
+
+
+def _add_volumes(m: pyo.ConcreteModel, d: MixData, slate: Sequence[bool] | None, integer: bool) -> list:
+    """Volume variables, running decisions and their links; returns y per product (var or 0/1)."""
+    m.P = pyo.Set(initialize=list(d.products), ordered=True)
+    m.R = pyo.Set(initialize=list(d.resources), ordered=True)
+    upper = d.upper
+    floor = d.run_floor
+    if slate is not None:
+        on = np.asarray(slate, dtype=bool)
+        lo = np.where(on, floor, 0.0)
+        hi = np.where(on, d.qp_upper, 0.0)  # resource rows, not bounds, carry the duals
+        m.volume = pyo.Var(m.P, domain=pyo.NonNegativeReals,
+                           bounds={p: (lo[k], hi[k]) for k, p in enumerate(d.products)})
+        return [1 if on[k] else 0 for k in range(d.n)]
+    fixed_lo = np.where(d.can_stop, 0.0, floor)
+    m.volume = pyo.Var(m.P, domain=pyo.NonNegativeReals,
+                       bounds={p: (fixed_lo[k], upper[k]) for k, p in enumerate(d.products)})
+    choice = [p for k, p in enumerate(d.products) if d.can_stop[k]]
+    m.C = pyo.Set(initialize=choice, ordered=True)
+    m.running = pyo.Var(m.C, domain=pyo.Binary if integer else pyo.UnitInterval)
+    idx = {p: k for k, p in enumerate(d.products)}
+    m.volume_cap = pyo.Constraint(m.C, rule=lambda m, p: m.volume[p] <= upper[idx[p]] * m.running[p])
+    m.run_floor = pyo.Constraint(
+        [p for p in choice if floor[idx[p]] > 0],
+        rule=lambda m, p: m.volume[p] >= floor[idx[p]] * m.running[p])
+    return [m.running[p] if d.can_stop[k] else 1 for k, p in enumerate(d.products)]
+
+
+def _add_capacity(m: pyo.ConcreteModel, d: MixData) -> None:
+    """capacity[r]: Σ_i h_ri·D_i ≤ H_r (resource units)."""
+    cols = usage_by_resource(d)
+    vol = [m.volume[p] for p in d.products]
+    exprs = {}
+    for r, name in enumerate(d.resources):
+        prods, amts = cols[r]
+        exprs[name] = LinearExpression(constant=0.0, linear_coefs=[float(x) for x in amts],
+                                       linear_vars=[vol[k] for k in prods])
+    index = {r: k for k, r in enumerate(d.resources)}
+    m.capacity = pyo.Constraint(m.R, rule=lambda m, r: (None, exprs[r], float(d.capacity[index[r]])))
+
+
+def build_mix_model(d: MixData, slate: Sequence[bool] | None = None, integer: bool = True) -> pyo.ConcreteModel:
+    """The mixed-integer QP (or, with ``slate``, the fixed-slate QP) as a Pyomo model."""
+    m = pyo.ConcreteModel(name="product_mix")
+    y = _add_volumes(m, d, slate, integer)
+    _add_capacity(m, d)
+    margin, b, F = d.margin, d.b, d.F
+    terms = []
+    for k, p in enumerate(d.products):
+        D = m.volume[p]
+        terms.append(float(margin[k]) * D)
+        if b[k] > 0:
+            terms.append(-float(b[k]) * D * D)
+        if F[k] > 0 and not isinstance(y[k], int):
+            terms.append(-float(F[k]) * y[k])
+    const = float(sum(F[k] for k in range(d.n) if isinstance(y[k], int) and y[k] == 1))
+    m.fixed_in_slate = pyo.Param(initialize=const, mutable=False)
+    m.profit = pyo.Objective(expr=pyo.quicksum(terms) - const, sense=pyo.maximize)
+    return m
+
+
+def read_volumes(m: pyo.ConcreteModel, d: MixData) -> np.ndarray:
+    """The model's volume values as an array in product order (units); unset counts as 0."""
+    return np.array([m.volume[p].value or 0.0 for p in d.products], dtype=float)

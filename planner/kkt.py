@@ -1,0 +1,85 @@
+"""Exact polish of a fixed-slate QP solution from its active set (closed-form KKT).
+
+For the separable concave QP  max Σ c_i D_i − b_i D_i²  s.t.  H D ≤ cap,
+lo ≤ D ≤ hi, the KKT conditions at an optimum with active rows A and free
+products (strictly inside their bounds) read
+
+- free product with b_i > 0:  D_i = (c_i − (H_Aᵀ λ)_i) / (2 b_i);
+- free product with b_i = 0:  (H_Aᵀ λ)_i = c_i  (its reduced cost is zero);
+- active row r:               Σ_i h_ri D_i = cap_r.
+
+Given the active set a solver found, these are a square linear system in λ_A
+and the free linear volumes.  Solving it removes the solver's tolerance (the
+result is exact to rounding) and is then checked: primal feasibility, λ ≥ 0
+and the sign of every bound's reduced cost.  If any check fails the solver's
+own answer is kept, so the polish can never make a plan worse.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from models.data import MixData
+
+
+def polish(d: MixData, slate: np.ndarray, volume: np.ndarray, duals: np.ndarray,
+           max_system: int = 3000) -> tuple[np.ndarray, np.ndarray] | None:
+    """(volume, duals) solving the KKT system on the given active set, or None if not exact."""
+    lo = np.where(slate, d.run_floor, 0.0)
+    hi = np.where(slate, d.qp_upper, 0.0)
+    c, b = d.margin, d.b
+    scale = np.maximum(np.maximum(np.abs(volume), np.where(np.isfinite(hi), np.abs(hi), 0.0)), 1.0)
+    at_lo = volume <= lo + 1e-7 * scale
+    at_hi = ~at_lo & (volume >= hi - 1e-7 * scale)
+    free = ~at_lo & ~at_hi
+    fixed_val = np.where(at_lo, lo, np.where(at_hi, hi, 0.0))
+    H = d.usage_dense() if len(d.resources) else np.zeros((0, d.n))
+    lam_scale = max(float(np.max(np.abs(c), initial=1.0)), 1.0)
+    active = np.flatnonzero(duals > 1e-9 * lam_scale)
+    fq = np.flatnonzero(free & (b > 0))
+    fl = np.flatnonzero(free & (b == 0))
+    k, m = active.size, fl.size
+    if k + m > max_system:
+        return None
+    HA = H[active]
+    lam = np.zeros(len(d.resources))
+    D = fixed_val.copy()
+    if k + m:
+        M = np.zeros((k + m, k + m))
+        rhs = np.zeros(k + m)
+        inv2b = 1.0 / (2.0 * b[fq])
+        M[:k, :k] = -(HA[:, fq] * inv2b) @ HA[:, fq].T
+        M[:k, k:] = HA[:, fl]
+        fixed = ~free
+        rhs[:k] = d.capacity[active] - HA[:, fixed] @ fixed_val[fixed] - HA[:, fq] @ (c[fq] * inv2b)
+        M[k:, :k] = HA[:, fl].T
+        rhs[k:] = c[fl]
+        try:
+            x = np.linalg.solve(M, rhs)
+        except np.linalg.LinAlgError:
+            return None
+        lam[active] = x[:k]
+        D[fl] = x[k:]
+    D[fq] = (c[fq] - H[:, fq].T @ lam) / (2.0 * b[fq])
+    if not _is_kkt(d, H, D, lam, lo, hi, at_lo, at_hi, free, scale, lam_scale):
+        return None
+    return D, lam
+
+
+def _is_kkt(d, H, D, lam, lo, hi, at_lo, at_hi, free, scale, lam_scale) -> bool:
+    tol_x = 1e-9 * scale
+    if np.any(D < lo - tol_x) or np.any(D > hi + tol_x):
+        return False
+    if np.any(lam < -1e-9 * lam_scale):
+        return False
+    used = H @ D
+    if np.any(used > d.capacity + 1e-9 * np.maximum(np.abs(d.capacity), 1.0)):
+        return False
+    reduced = d.margin - 2.0 * d.b * D - H.T @ lam  # marginal profit of one more unit
+    tol_r = 1e-7 * lam_scale
+    if np.any(reduced[at_lo & (hi > lo)] > tol_r) or np.any(reduced[at_hi & (hi > lo)] < -tol_r):
+        return False
+    if np.any(np.abs(reduced[free]) > tol_r):
+        return False
+    slack_rows = used < d.capacity - 1e-7 * np.maximum(np.abs(d.capacity), 1.0)
+    return not np.any(lam[slack_rows] > 1e-9 * lam_scale)

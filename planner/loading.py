@@ -1,0 +1,62 @@
+"""Reading scenario files into validated :class:`Scenario` objects.
+
+YAML is read with a safe loader only (the C one where PyYAML has it).  Other
+forms (spreadsheets, CSV folders) register a reader in ``READERS`` that turns
+the file into the same plain dict, so every form meets the same validator.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any, Callable
+
+import yaml
+
+from .errors import Problem, ScenarioError
+from .schema import Scenario
+from .validate import validate_scenario
+
+#: Largest scenario file read, in bytes (a 10,000-product catalogue is ~15 MB).
+MAX_FILE_BYTES = 200 * 1024 * 1024
+
+_Loader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
+
+
+def read_yaml(path: Path) -> Any:
+    """The raw content of a YAML scenario file (safe loader; errors name the line)."""
+    try:
+        text = path.read_bytes()
+    except OSError as e:
+        raise ScenarioError([Problem(str(path), f"cannot be read: {e.strerror or e}")]) from None
+    try:
+        return yaml.load(text, Loader=_Loader)  # noqa: S506 - a safe loader
+    except yaml.YAMLError as e:
+        mark = getattr(e, "problem_mark", None)
+        where = f"{path}, line {mark.line + 1}, column {mark.column + 1}" if mark else str(path)
+        what = getattr(e, "problem", None) or str(e)
+        raise ScenarioError([Problem(where, f"is not valid YAML: {what}", "check indentation and colons")]) from None
+
+
+#: Readers by file suffix: each returns the raw scenario dict.
+READERS: dict[str, Callable[[Path], Any]] = {".yaml": read_yaml, ".yml": read_yaml}
+
+
+def read_raw(path: str | Path) -> Any:
+    """The raw scenario dict from any supported form, without validation."""
+    p = Path(path)
+    if not p.exists():
+        raise ScenarioError([Problem(str(p), "no such file or folder", "check the path")])
+    if p.is_file() and p.stat().st_size > MAX_FILE_BYTES:
+        raise ScenarioError([Problem(str(p), f"is larger than {MAX_FILE_BYTES // 2**20} MiB", "split the scenario")])
+    key = "/" if p.is_dir() else p.suffix.lower()
+    reader = READERS.get(key)
+    if reader is None:
+        forms = ", ".join(k for k in sorted(READERS) if k != "/")
+        raise ScenarioError([Problem(str(p), f"unsupported scenario form '{key}'", f"use one of: {forms}")])
+    return reader(p)
+
+
+def load_scenario(path: str | Path) -> tuple[Scenario, list[str]]:
+    """Read and validate a scenario file: (scenario, warnings); ScenarioError lists all problems."""
+    raw = read_raw(path)
+    return validate_scenario(raw, source=str(path))

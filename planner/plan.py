@@ -1,0 +1,141 @@
+"""The Plan: one object that feeds every output (terminal, JSON, tables, reports).
+
+Signs: revenue, variable cost, fixed cost are amounts ≥ 0 (currency per
+period); profit = revenue − variable cost − fixed cost; a shadow price is the
+profit gained per extra unit of capacity (currency per resource unit, ≥ 0).
+"""
+
+from __future__ import annotations
+
+import json
+import platform
+from dataclasses import asdict, dataclass, field
+from typing import Any
+
+from .economics import Standalone
+
+#: Labour caution shown wherever a plan touches people (shifts, overtime).
+LABOUR_NOTE = ("Labour rules on shifts and overtime differ by jurisdiction; local law and company "
+               "agreements govern. This plan is decision support for qualified people.")
+
+
+@dataclass
+class ProductPlan:
+    name: str
+    running: bool
+    volume: float  # units
+    price: float  # currency / unit, from the price–demand line at this volume
+    revenue: float  # currency
+    variable_cost: float  # currency
+    contribution: float  # currency, revenue − variable cost
+    fixed_cost: float  # currency, paid only if running (or must run)
+    profit: float  # currency, contribution − fixed cost
+    unit: str
+    standalone: Standalone
+    must_run: bool = False
+
+    def to_dict(self) -> dict[str, Any]:
+        d = {k: v for k, v in asdict(self).items() if k != "standalone"}
+        d["standalone"] = self.standalone.to_dict()
+        return d
+
+
+@dataclass
+class ResourcePlan:
+    name: str
+    capacity: float  # resource unit
+    used: float  # resource unit
+    utilisation: float  # used / capacity, 0..1 (0 where capacity is 0)
+    shadow_price: float  # currency per resource unit, ≥ 0
+    binding: bool
+    unit: str
+
+    def to_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+
+@dataclass
+class Plan:
+    """A solved plan with its certificate; ``profit`` includes the plant-wide fixed cost."""
+
+    scenario: str
+    status: str  # optimal | time_limit | infeasible | error
+    profit: float  # currency
+    bound: float  # currency, certified upper bound on profit
+    gap: float  # (bound − profit) / max(|profit|, 1)
+    products: list[ProductPlan]
+    resources: list[ResourcePlan]
+    currency: str = "$"
+    period: str = "quarter"
+    plant_fixed_cost: float = 0.0
+    solver: dict[str, Any] = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)
+    extras: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def bottlenecks(self) -> list[ResourcePlan]:
+        """Binding resources, dearest shadow price first."""
+        return sorted((r for r in self.resources if r.binding), key=lambda r: -r.shadow_price)
+
+    def to_dict(self) -> dict[str, Any]:
+        out = {
+            "scenario": self.scenario,
+            "status": self.status,
+            "profit": self.profit,
+            "bound": self.bound,
+            "gap": self.gap,
+            "currency": self.currency,
+            "period": self.period,
+            "plant_fixed_cost": self.plant_fixed_cost,
+            "products": [p.to_dict() for p in self.products],
+            "resources": [r.to_dict() for r in self.resources],
+            "solver": self.solver,
+            "warnings": self.warnings,
+            "note": LABOUR_NOTE,
+        }
+        out.update(self.extras)
+        return out
+
+    def to_json(self) -> str:
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False, default=_json_default)
+
+    def products_frame(self):
+        """Products as a pandas DataFrame, one row per product (standalone columns prefixed)."""
+        import pandas as pd
+
+        rows = []
+        for p in self.products:
+            row = {k: v for k, v in p.to_dict().items() if k != "standalone"}
+            row.update({f"standalone_{k}": v for k, v in p.standalone.to_dict().items()})
+            rows.append(row)
+        return pd.DataFrame(rows).set_index("name")
+
+    def resources_frame(self):
+        """Resources as a pandas DataFrame, one row per resource."""
+        import pandas as pd
+
+        return pd.DataFrame([r.to_dict() for r in self.resources]).set_index("name") if self.resources \
+            else pd.DataFrame(columns=["capacity", "used", "utilisation", "shadow_price", "binding", "unit"])
+
+
+def _json_default(x: Any) -> Any:
+    import numpy as np
+
+    if isinstance(x, np.generic):
+        return x.item()
+    if isinstance(x, np.ndarray):
+        return x.tolist()
+    raise TypeError(f"not JSON serialisable: {type(x).__name__}")
+
+
+def solver_versions() -> dict[str, str]:
+    """Versions of the solvers and libraries that made a plan, for reproducibility."""
+    from importlib.metadata import PackageNotFoundError, version
+
+    out = {"python": platform.python_version()}
+    for pkg in ("highspy", "highspy-extras", "pyomo", "numpy"):
+        try:
+            out[pkg] = version(pkg)
+        except PackageNotFoundError:
+            out[pkg] = "not installed"
+    return out

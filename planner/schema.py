@@ -1,0 +1,123 @@
+"""The scenario schema: what a scenario file may say, with units and signs.
+
+Every input form (YAML today; spreadsheets and CSV folders through the same
+dicts) is validated here, strictly: unknown keys are refused, numbers must be
+finite, and the validated objects are frozen.  Cross-references (usage naming
+a resource, duplicate names) are checked in :mod:`planner.validate`, which
+collects every problem in one pass.
+
+Money is in the scenario's ``currency`` (any text, default ``"$"``), volumes
+in each product's ``unit`` (default ``"units"``), capacities in each
+resource's ``unit``.  All amounts are for one planning period (a quarter by
+default, ``period`` names it).
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Annotated, Literal
+
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field
+
+
+def _finite(x: float) -> float:
+    if not math.isfinite(x):
+        raise ValueError("must be a finite number")
+    return x
+
+
+Number = Annotated[float, AfterValidator(_finite)]
+NonNegative = Annotated[float, AfterValidator(_finite), Field(ge=0)]
+Positive = Annotated[float, AfterValidator(_finite), Field(gt=0)]
+Name = Annotated[str, Field(min_length=1, max_length=200)]
+
+
+class _Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True, str_strip_whitespace=True)
+
+
+class Product(_Strict):
+    """One product: its price–demand line, costs, limits and routing."""
+
+    name: Name
+    """Unique name, used in every report and in ``usage`` keys of options."""
+    price_intercept: NonNegative
+    """Price at which demand falls to zero (currency per unit)."""
+    price_slope: NonNegative = 0.0
+    """Price drop per extra unit sold (currency per unit²); 0 means a fixed price."""
+    unit_cost: NonNegative
+    """Variable cost per unit made (currency per unit)."""
+    fixed_cost: NonNegative = 0.0
+    """Cost per period avoided only by shutting the product down (currency)."""
+    max_volume: NonNegative | None = None
+    """Market or contract cap on volume (units per period); none if omitted."""
+    min_volume: NonNegative = 0.0
+    """Committed volume that must be made (units per period); > 0 forces it to run."""
+    min_run: NonNegative = 0.0
+    """Smallest volume worth setting up for when the product runs (units); it may still be shut down."""
+    must_run: bool = False
+    """True if the product may not be shut down this period (its fixed cost is then unavoidable)."""
+    usage: dict[Name, NonNegative] = Field(default_factory=dict)
+    """Amount of each resource used per unit made (resource unit per product unit)."""
+    unit: str = "units"
+    """Unit in which volumes are counted (text, for reports)."""
+    description: str = ""
+
+
+class Resource(_Strict):
+    """A shared limit: a work centre's hours or a material's supply."""
+
+    name: Name
+    capacity: NonNegative
+    """Amount available in the period (in ``unit``)."""
+    unit: str = ""
+    """Unit of the capacity: h, kg, m² ... (text, for reports and unit checks)."""
+    kind: Literal["work_centre", "material", "other"] = "other"
+    description: str = ""
+
+
+class Option(_Strict):
+    """A way to add capacity for a cost: a shift, overtime, premium material.
+
+    Either ``adds`` with ``cost`` (all or nothing, e.g. a whole extra shift) or
+    ``adds_up_to`` with ``cost_per_unit`` (usable in part, e.g. overtime hours).
+    """
+
+    name: Name
+    adds: dict[Name, Positive] | None = None
+    """Amounts added to each named resource if the option is taken (all or nothing)."""
+    cost: NonNegative | None = None
+    """Cost of the whole option for the period (currency)."""
+    adds_up_to: dict[Name, Positive] | None = None
+    """Largest amounts that may be added to each named resource (usable in part)."""
+    cost_per_unit: NonNegative | None = None
+    """Cost per unit added (currency per resource unit); with several resources, per unit of the option's scale 0..1 times each amount."""
+    description: str = ""
+
+
+class Scenario(_Strict):
+    """A whole planning scenario for one period."""
+
+    name: Name
+    currency: str = "$"
+    period: str = "quarter"
+    plant_fixed_cost: NonNegative = 0.0
+    """Fixed cost no decision avoids (currency per period); subtracted from total profit."""
+    description: str = ""
+    products: list[Product] = Field(min_length=1)
+    resources: list[Resource] = Field(default_factory=list)
+    options: list[Option] = Field(default_factory=list)
+
+    def product(self, name: str) -> Product:
+        """The product called ``name`` (KeyError if none)."""
+        for p in self.products:
+            if p.name == name:
+                return p
+        raise KeyError(name)
+
+    def resource(self, name: str) -> Resource:
+        """The resource called ``name`` (KeyError if none)."""
+        for r in self.resources:
+            if r.name == name:
+                return r
+        raise KeyError(name)
