@@ -36,6 +36,30 @@ class _Strict(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True, str_strip_whitespace=True)
 
 
+class DemandFit(_Strict):
+    """Uncertainty of a price–demand line fitted from sales history (kept for risk analysis).
+
+    Written by ``planner fit-demand``; the line itself is in price_intercept / price_slope.
+    """
+
+    intercept_se: NonNegative
+    """Standard error of the fitted intercept (currency/unit)."""
+    slope_se: NonNegative
+    """Standard error of the fitted slope (currency/unit²)."""
+    covariance: Number = 0.0
+    """Covariance of the intercept and slope estimates (currency²/unit³)."""
+    n: int = Field(ge=0, default=0)
+    """Number of observations."""
+    r2: Number | None = None
+    """Coefficient of determination of the fit (0..1)."""
+    price_min: Number | None = None
+    """Lowest price observed (currency/unit)."""
+    price_max: Number | None = None
+    """Highest price observed (currency/unit)."""
+    source: str = ""
+    """Where the history came from (file name)."""
+
+
 class Product(_Strict):
     """One product: its price–demand line, costs, limits and routing."""
 
@@ -62,6 +86,8 @@ class Product(_Strict):
     unit: str = "units"
     """Unit in which volumes are counted (text, for reports)."""
     description: str = ""
+    demand_fit: DemandFit | None = None
+    """Uncertainty of the line when it was fitted from history (see ``planner fit-demand``)."""
 
 
 class Resource(_Strict):
@@ -95,6 +121,34 @@ class Option(_Strict):
     description: str = ""
 
 
+class Uncertainty(_Strict):
+    """A distribution for one uncertain number of the scenario (for Monte Carlo risk).
+
+    ``product`` with field price_intercept / price_slope / unit_cost, or
+    ``resource`` with field capacity.  normal: ``sd`` (and optional ``mean``,
+    default the scenario's value); triangular: ``low``, ``mode``, ``high``;
+    uniform: ``low``, ``high``; fitted: the product's ``demand_fit`` covariance
+    of intercept and slope (field is then price_intercept, both move together).
+    """
+
+    product: Name | None = None
+    resource: Name | None = None
+    field: Literal["price_intercept", "price_slope", "unit_cost", "capacity"]
+    distribution: Literal["normal", "triangular", "uniform", "fitted"]
+    sd: NonNegative | None = None
+    mean: Number | None = None
+    low: Number | None = None
+    mode: Number | None = None
+    high: Number | None = None
+
+
+class Correlation(_Strict):
+    """Correlation between two products' demand (their intercepts' draws), -1..1."""
+
+    products: tuple[Name, Name]
+    rho: Annotated[float, Field(ge=-1, le=1)]
+
+
 class Scenario(_Strict):
     """A whole planning scenario for one period."""
 
@@ -107,6 +161,8 @@ class Scenario(_Strict):
     products: list[Product] = Field(min_length=1)
     resources: list[Resource] = Field(default_factory=list)
     options: list[Option] = Field(default_factory=list)
+    uncertainty: list[Uncertainty] = Field(default_factory=list)
+    correlations: list[Correlation] = Field(default_factory=list)
 
     def product(self, name: str) -> Product:
         """The product called ``name`` (KeyError if none)."""

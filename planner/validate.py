@@ -12,18 +12,21 @@ from __future__ import annotations
 import difflib
 import math
 from collections import Counter
+from collections.abc import Callable
 from typing import Any
 
 from pydantic import ValidationError
 
 from .errors import Problem, ScenarioError
-from .schema import Option, Product, Resource, Scenario
+from .schema import Correlation, Option, Product, Resource, Scenario, Uncertainty
 
 _FIELDS = {
     "scenario": set(Scenario.model_fields),
     "products": set(Product.model_fields),
     "resources": set(Resource.model_fields),
     "options": set(Option.model_fields),
+    "uncertainty": set(Uncertainty.model_fields),
+    "correlations": set(Correlation.model_fields),
 }
 
 
@@ -50,7 +53,7 @@ def _where(raw: dict[str, Any], loc: tuple[Any, ...]) -> str:
     i = 0
     while i < len(loc):
         part = loc[i]
-        if part in ("products", "resources", "options") and i + 1 < len(loc) and isinstance(loc[i + 1], int):
+        if part in ("products", "resources", "options", "uncertainty", "correlations") and i + 1 < len(loc) and isinstance(loc[i + 1], int):
             parts.append(_label(raw, str(part), loc[i + 1]))
             i += 2
             continue
@@ -172,8 +175,14 @@ def scenario_warnings(s: Scenario) -> list[str]:
     return warnings
 
 
-def validate_scenario(raw: Any, source: str = "") -> tuple[Scenario, list[str]]:
-    """Validate a raw scenario dict; return (scenario, warnings) or raise ScenarioError."""
+def validate_scenario(raw: Any, source: str = "",
+                      locate: Callable[[str], str | None] | None = None) -> tuple[Scenario, list[str]]:
+    """Validate a raw scenario dict; return (scenario, warnings) or raise ScenarioError.
+
+    ``locate`` maps a problem's location ("products[doors].unit_cost") to the
+    place in the user's file ("sheet products, row 4, column unit_cost"), for
+    readers of spreadsheets and CSV folders; its answer is put before the location.
+    """
     if not isinstance(raw, dict):
         raise ScenarioError([Problem("", f"the scenario must be a mapping of keys (got {type(raw).__name__})",
                                      "start the file with 'name:' and 'products:'")], source)
@@ -184,6 +193,9 @@ def validate_scenario(raw: Any, source: str = "") -> tuple[Scenario, list[str]]:
     except ValidationError as err:
         problems += _pydantic_problems(raw, err)
     problems += _cross_problems(raw)
+    if locate is not None:
+        problems = [Problem(f"{place} ({p.where})" if (place := locate(p.where)) else p.where, p.message, p.fix)
+                    for p in problems]
     if problems or scenario is None:
         raise ScenarioError(problems, source)
     return scenario, scenario_warnings(scenario)
