@@ -37,12 +37,12 @@ def read_yaml(path: Path) -> Any:
         raise ScenarioError([Problem(where, f"is not valid YAML: {what}", "check indentation and colons")]) from None
 
 
-#: Readers by file suffix: each returns the raw scenario dict.
+#: Readers by file suffix ("/" for a folder): each returns the raw scenario dict or a ReadResult.
 READERS: dict[str, Callable[[Path], Any]] = {".yaml": read_yaml, ".yml": read_yaml}
 
 
-def read_raw(path: str | Path) -> Any:
-    """The raw scenario dict from any supported form, without validation."""
+def read_source(path: str | Path) -> Any:
+    """What the path's reader returns: the raw dict, or a ReadResult (raw, locate, problems, base_dir)."""
     p = Path(path)
     if not p.exists():
         raise ScenarioError([Problem(str(p), "no such file or folder", "check the path")])
@@ -56,7 +56,24 @@ def read_raw(path: str | Path) -> Any:
     return reader(p)
 
 
+def read_raw(path: str | Path) -> Any:
+    """The raw scenario dict from any supported form, without validation."""
+    got = read_source(path)
+    return got.raw if isinstance(got, ReadResult) else got
+
+
 def load_scenario(path: str | Path) -> tuple[Scenario, list[str]]:
     """Read and validate a scenario file: (scenario, warnings); ScenarioError lists all problems."""
-    raw = read_raw(path)
-    return validate_scenario(raw, source=str(path))
+    got = read_source(path)
+    if isinstance(got, ReadResult):
+        return validate_scenario(got.raw, source=str(path), locate=got.locate, base_dir=got.base_dir,
+                                 found=got.problems)
+    return validate_scenario(got, source=str(path), base_dir=Path(path).parent)
+
+
+# Spreadsheet forms (planner.io): a workbook, or a folder of CSV tables.
+from .io.csvdir import read_csv_folder  # noqa: E402
+from .io.tables import ReadResult  # noqa: E402
+from .io.xlsx import read_xlsx  # noqa: E402
+
+READERS.update({".xlsx": read_xlsx, "/": read_csv_folder})

@@ -13,16 +13,18 @@ import difflib
 import math
 from collections import Counter
 from collections.abc import Callable
+from pathlib import Path
 from typing import Any
 
 from pydantic import ValidationError
 
+from .demand import expand_demand
 from .errors import Problem, ScenarioError
 from .schema import Correlation, Option, Product, Resource, Scenario, Uncertainty
 
 _FIELDS = {
     "scenario": set(Scenario.model_fields),
-    "products": set(Product.model_fields),
+    "products": set(Product.model_fields) | {"demand"},
     "resources": set(Resource.model_fields),
     "options": set(Option.model_fields),
     "uncertainty": set(Uncertainty.model_fields),
@@ -176,17 +178,22 @@ def scenario_warnings(s: Scenario) -> list[str]:
 
 
 def validate_scenario(raw: Any, source: str = "",
-                      locate: Callable[[str], str | None] | None = None) -> tuple[Scenario, list[str]]:
+                      locate: Callable[[str], str | None] | None = None,
+                      base_dir: str | Path | None = None,
+                      found: list[Problem] | None = None) -> tuple[Scenario, list[str]]:
     """Validate a raw scenario dict; return (scenario, warnings) or raise ScenarioError.
 
     ``locate`` maps a problem's location ("products[doors].unit_cost") to the
     place in the user's file ("sheet products, row 4, column unit_cost"), for
     readers of spreadsheets and CSV folders; its answer is put before the location.
+    Products may state demand in other forms (``demand:``, see planner.demand);
+    history files are found relative to ``base_dir``.  ``found`` are problems a
+    reader already found (listed first, already located).
     """
     if not isinstance(raw, dict):
         raise ScenarioError([Problem("", f"the scenario must be a mapping of keys (got {type(raw).__name__})",
                                      "start the file with 'name:' and 'products:'")], source)
-    problems: list[Problem] = []
+    raw, problems, demand_notes = expand_demand(raw, base_dir)
     scenario = None
     try:
         scenario = Scenario.model_validate(raw)
@@ -196,6 +203,7 @@ def validate_scenario(raw: Any, source: str = "",
     if locate is not None:
         problems = [Problem(f"{place} ({p.where})" if (place := locate(p.where)) else p.where, p.message, p.fix)
                     for p in problems]
+    problems = list(found or []) + problems
     if problems or scenario is None:
         raise ScenarioError(problems, source)
-    return scenario, scenario_warnings(scenario)
+    return scenario, demand_notes + scenario_warnings(scenario)
