@@ -8,6 +8,7 @@ import numpy as np
 
 from models.data import MixData
 
+from .demand import extrapolation_warnings
 from .economics import standalone
 from .loading import load_scenario
 from .plan import Plan, ProductPlan, ResourcePlan, solver_versions
@@ -75,7 +76,7 @@ def build_plan(s: Scenario, d: MixData, sol: MixSolution, warnings: list[str] | 
     return Plan(scenario=s.name, status=sol.status, profit=profit, bound=bound,
                 gap=relative_gap(bound, profit), products=products, resources=resources,
                 currency=s.currency, period=s.period, plant_fixed_cost=s.plant_fixed_cost,
-                solver=info, warnings=list(warnings or []))
+                solver=info, warnings=list(warnings or []) + extrapolation_warnings(s, products))
 
 
 def write_model_file(scenario: Scenario | str | Path, path: str | Path) -> Path:

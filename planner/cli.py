@@ -14,6 +14,7 @@ from pathlib import Path
 
 import click
 from rich.console import Console
+from rich.markup import escape
 
 from .errors import PlannerError
 
@@ -21,7 +22,7 @@ console = Console()
 err_console = Console(stderr=True)
 
 #: Modules that add commands to ``main`` when imported (each has ``register(main)``).
-COMMAND_MODULES: list[str] = []
+COMMAND_MODULES: list[str] = ["planner.data_cli"]
 
 
 def friendly(func):
@@ -74,7 +75,7 @@ def main() -> None:
 @friendly
 def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_model: Path | None,
              rel_gap: float, time_limit: float | None, solver: str | None, quiet: bool, debug: bool) -> None:
-    """Plan the optimal product mix of SCENARIO (YAML)."""
+    """Plan the optimal product mix of SCENARIO (YAML, .xlsx workbook or folder of CSV files)."""
     from .api import plan
     from .output import write_text_atomic
     from .terminal import print_plan
@@ -105,7 +106,7 @@ def check_cmd(scenario: Path, debug: bool) -> None:
 
     s, warnings = load_scenario(scenario)
     for w in warnings:
-        console.print(f"[yellow]warning:[/] {w}")
+        console.print(f"[yellow]warning:[/] {escape(w)}")
     console.print(f"{scenario}: valid — {len(s.products)} products, {len(s.resources)} resources, "
                   f"{len(s.options)} options")
 

@@ -237,3 +237,22 @@ def _history(spec: dict, product: dict, label: str, hist: _Histories, problems: 
     for w in line.warnings:
         warnings.append(f"{label}: demand fitted from {full.name}: {w}")
     return line.intercept, line.slope, line.demand_fit()
+
+
+def extrapolation_warnings(scenario: Any, products: list[Any]) -> list[str]:
+    """Warnings for running products planned at a price outside the range seen in their sales history.
+
+    ``products`` are the plan's ProductPlan rows (name, running, volume, price), in scenario order.
+    """
+    out = []
+    for sp, pp in zip(scenario.products, products):
+        fit = sp.demand_fit
+        if fit is None or fit.price_min is None or fit.price_max is None or not pp.running or pp.volume <= 0:
+            continue
+        tol = 1e-9 * max(abs(fit.price_max), 1.0)
+        if pp.price < fit.price_min - tol or pp.price > fit.price_max + tol:
+            side = "below" if pp.price < fit.price_min else "above"
+            out.append(f"products[{sp.name}]: planned price {pp.price:,.2f} is {side} the prices in its sales "
+                       f"history ({fit.price_min:,.2f} to {fit.price_max:,.2f}): the fitted line is extrapolated "
+                       "there; check that the planned volume is believable")
+    return out

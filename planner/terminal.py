@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from rich.console import Console
+from rich.markup import escape
 from rich.table import Table
 
 from .plan import LABOUR_NOTE, Plan
@@ -97,7 +98,7 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True)
         con.print(standalone_table(p))
         con.print()
     for w in p.warnings:
-        con.print(f"[yellow]warning:[/] {w}")
+        con.print(f"[yellow]warning:[/] {escape(w)}")  # warnings name products[x]: not markup
     for m in p.solver.get("messages", []):
         con.print(f"[yellow]note:[/] {m}")
     con.print(f"[dim]{LABOUR_NOTE}[/]")

@@ -45,7 +45,10 @@ def rebase_history(raw: dict[str, Any], old_base: Path, new_base: Path) -> dict[
         spec = p.get("demand") if isinstance(p, dict) else None
         if isinstance(spec, dict) and isinstance(spec.get("history"), str) and not Path(spec["history"]).is_absolute():
             target = (old_base / spec["history"]).resolve()
-            spec["history"] = Path(os.path.relpath(target, new_base.resolve())).as_posix()
+            try:
+                spec["history"] = Path(os.path.relpath(target, new_base.resolve())).as_posix()
+            except ValueError:  # another drive (Windows): no relative path exists
+                spec["history"] = str(target)
     return out
 
 
