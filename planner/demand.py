@@ -10,7 +10,8 @@ of those two keys a product may give ``demand:`` in one of three forms::
 History options: ``product:`` (the product's name in the file, default its
 own name) and ``regress:`` (``volume-on-price``, the default, or
 ``price-on-volume``; see :mod:`planner.fit`).  A history path is relative to
-the scenario file (for a CSV folder: to the folder).  A fitted line also fills
+the folder holding the scenario file (a CSV folder counts as the file: paths
+are relative to the folder that holds it, so siblings of any form share them).  A fitted line also fills
 the product's ``demand_fit`` (standard errors, covariance, observed price
 range) for the risk analysis and the extrapolation warning.
 
@@ -68,14 +69,15 @@ class _Histories:
         self.cache: dict[Path, tuple[dict, list[Problem]]] = {}
         self.reported: set[Path] = set()
 
-    def get(self, path: str) -> tuple[Path, dict, list[Problem]]:
+    def get(self, path: str) -> tuple[Path, dict, list[Problem], bool]:
+        """(full path, data, problems not yet reported, whether the file had problems)."""
         full = Path(path) if Path(path).is_absolute() else self.base / path
         if full not in self.cache:
             self.cache[full] = read_history(full)
         data, problems = self.cache[full]
         fresh = [] if full in self.reported else problems
         self.reported.add(full)
-        return full, data, fresh
+        return full, data, fresh, bool(problems)
 
 
 def expand_demand(raw: Any, base_dir: str | Path | None = None) -> tuple[Any, list[Problem], list[str]]:
@@ -213,10 +215,10 @@ def _history(spec: dict, product: dict, label: str, hist: _Histories, problems: 
     if method not in METHODS:
         problems.append(Problem(f"{where}.regress", f"must be one of {', '.join(METHODS)} (got {method!r})"))
         return None
-    full, data, file_problems = hist.get(path.strip())
+    full, data, file_problems, troubled = hist.get(path.strip())
     problems += [Problem(f"{where}.history ({p.where})", p.message, p.fix) for p in file_problems]
     name = spec.get("product", product.get("name"))
-    if file_problems and not data:
+    if troubled and not data:
         return None
     if name not in data:
         from .validate import did_you_mean

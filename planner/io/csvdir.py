@@ -1,8 +1,9 @@
 """Scenario folders: one CSV file per table of :mod:`planner.io.tables` (UTF-8, comma-separated).
 
 ``products.csv`` is required; the folder's name is the scenario's default
-name.  A history file named by the demand table may sit in the same folder:
-it is not read as a table.  Relative history paths are relative to the folder.
+name.  Relative history paths are relative to the folder that holds this
+folder (as for a file).  A history file the demand table names may sit inside
+the folder (``history: myfolder/sales.csv``): it is not read as a table.
 """
 
 from __future__ import annotations
@@ -37,14 +38,14 @@ def _history_files(folder: Path) -> set[Path]:
     if "history" not in header:
         return set()
     j = header.index("history")
-    return {(folder / r[j].strip()).resolve() for _, r in t.rows if j < len(r) and r[j].strip()}
+    return {(folder.parent / r[j].strip()).resolve() for _, r in t.rows if j < len(r) and r[j].strip()}
 
 
 def read_csv_folder(folder: Path) -> ReadResult:
     """Read a folder of CSV tables into the raw dict, with every cell's place remembered."""
     skip = _history_files(folder)
     tables = {p.stem.strip(): _read_table(p) for p in sorted(folder.glob("*.csv")) if p.resolve() not in skip}
-    return from_tables(tables, lambda t: f"file {t}.csv", folder.name, folder)
+    return from_tables(tables, lambda t: f"file {t}.csv", folder.name, folder.parent)
 
 
 def _csv_text(header: list[str], rows: list[list[Any]]) -> str:

@@ -33,9 +33,8 @@ def form_of(path: str | Path) -> str:
 
 
 def base_dir_of(path: str | Path) -> Path:
-    """The folder relative history paths are read from: the file's folder, or the CSV folder itself."""
-    p = Path(path)
-    return p if form_of(p) == "csv" else p.parent
+    """The folder relative history paths are read from: the one holding the file (or CSV folder)."""
+    return Path(path).absolute().parent
 
 
 def rebase_history(raw: dict[str, Any], old_base: Path, new_base: Path) -> dict[str, Any]:
