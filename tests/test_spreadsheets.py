@@ -154,12 +154,25 @@ def test_missing_sheet(bad):
         wb.save(target)
     else:
         (target / "products.csv").unlink()
-    got = messages(target)
-    assert got[0] == (f"{at('products')}: is missing (add it with a heading row: name, price_intercept, "
-                      "price_slope, unit_cost, ...)")
-    # its usage rows now name products that are not defined, each located
-    assert got[1] == (f"{at('usage')}, row 2, column product: names a product that is not defined: 'gear A' "
-                      f"(add it to {at('products')} or fix the name)")
+    assert messages(target) == [f"{at('products')}: is missing (add it with a heading row: name, price_intercept, "
+                                "price_slope, unit_cost, ...)"]
+
+
+def test_sheet_names_in_any_case(tmp_path):
+    from openpyxl import load_workbook
+
+    write_scenario(read_raw(ROOT / "scenarios" / "demo.yaml"), tmp_path / "c.xlsx")
+    wb = load_workbook(tmp_path / "c.xlsx")
+    wb["products"].title = "Product list"  # a misnamed sheet gets a hint
+    wb.save(tmp_path / "c.xlsx")
+    assert messages(tmp_path / "c.xlsx") == [
+        "sheet products: is missing (did you mean 'Product list'? add it with a heading row: name, price_intercept, "
+        "price_slope, unit_cost, ...)"]
+    wb["Product list"].title = "PRODUCTS"
+    wb["PRODUCTS"]["D3"] = "abc"
+    wb.save(tmp_path / "c.xlsx")
+    assert messages(tmp_path / "c.xlsx") == [
+        "sheet PRODUCTS, row 3, column unit_cost (products[walnut desk].unit_cost): must be a number (got 'abc')"]
 
 
 def test_text_in_number_cell(bad):

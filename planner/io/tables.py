@@ -191,9 +191,10 @@ class _Reader:
         self.place = place
         self.where: dict[str, str] = {}
         self.problems: list[Problem] = []
+        self.names: dict[str, str] = {}  # table key -> its name in the file
 
     def at(self, table: str, row: int | None = None, col: str | None = None) -> str:
-        s = self.place(table)
+        s = self.place(self.names.get(table, table))
         if row is not None:
             s += f", row {row}"
         if col is not None:
@@ -284,7 +285,10 @@ def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_n
     """Build the scenario dict from tables, remembering where every value came from."""
     from ..validate import did_you_mean
 
+    # Known tables match whatever the case of their names ("Products" is products).
+    tables = {(k.lower() if k.lower() in ORDER else k): t for k, t in tables.items()}
     rd = _Reader(place)
+    rd.names = {k: t.name for k, t in tables.items()}
     raw: dict[str, Any] = {}
     if "scenario" in tables:
         for r, rec in rd.records(tables["scenario"], ["key", "value"]):
@@ -305,12 +309,14 @@ def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_n
             raw[k] = v
             rd.where[k] = rd.at("scenario", r, "value")
     raw.setdefault("name", default_name)
-    if "products" not in tables:
-        rd.problems.append(Problem(place("products"), "is missing", "add it with a heading row: "
-                                   + ", ".join(COLUMNS["products"][:4]) + ", ..."))
-        products: list[dict] = []
-    else:
-        products = rd.entries(tables["products"], "products", "name", ["name"])
+    if "products" not in tables:  # nothing else can be checked without it
+        from ..errors import ScenarioError
+
+        others = [t.name for k, t in tables.items() if k not in ORDER]
+        hint = did_you_mean("products", others)
+        raise ScenarioError([Problem(place("products"), "is missing", (f"{hint} " if hint else "")
+                                     + "add it with a heading row: " + ", ".join(COLUMNS["products"][:4]) + ", ...")])
+    products = rd.entries(tables["products"], "products", "name", ["name"])
     raw["products"] = products
     by_name = {p["name"].strip(): (i, p) for i, p in enumerate(products) if isinstance(p.get("name"), str)}
 
@@ -406,9 +412,7 @@ def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_n
             cors.append(c)
         raw["correlations"] = cors
         rd.where["correlations"] = rd.at("correlations")
-    known = {"scenario", "products", "usage", "demand", "demand_fit", "resources", "options", "option_amounts",
-             "correlations"}
     for name, t in tables.items():
-        if name not in known:
+        if name not in ORDER or name == "uncertainty":
             raw[name] = rd.entries(t, name, "name", [])
     return ReadResult(raw, rd.locate, rd.problems, base_dir)
