@@ -216,7 +216,7 @@ def _history(spec: dict, product: dict, label: str, hist: _Histories, problems: 
         problems.append(Problem(f"{where}.regress", f"must be one of {', '.join(METHODS)} (got {method!r})"))
         return None
     full, data, file_problems, troubled = hist.get(path.strip())
-    problems += [Problem(f"{where}.history ({p.where})", p.message, p.fix) for p in file_problems]
+    problems += [Problem(f"{where}.history", f"{p.where}: {p.message}", p.fix) for p in file_problems]
     name = spec.get("product", product.get("name"))
     if troubled and not data:
         return None
@@ -235,6 +235,10 @@ def _history(spec: dict, product: dict, label: str, hist: _Histories, problems: 
         return None
     if line.slope is None or line.slope < 0 or line.dq_dp >= 0:
         problems.append(Problem(f"{where}.history", f"{full.name}: {line.warnings[0]}"))
+        return None
+    if line.intercept is None or line.intercept < 0:
+        problems.append(Problem(f"{where}.history", f"{full.name}: the fitted price at zero volume is negative "
+                                                    f"({line.intercept!r})", "the history cannot give a usable line"))
         return None
     for w in line.warnings:
         warnings.append(f"{label}: demand fitted from {full.name}: {w}")

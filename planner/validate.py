@@ -120,8 +120,9 @@ def _cross_problems(raw: dict[str, Any]) -> list[Problem]:
             if count > 1:
                 problems.append(Problem(f"{section}[{name}]", f"name used {count} times", "names must be unique"))
     resources = set(_names(raw, "resources"))
-    for i, p in enumerate(_entries(raw, "products")):
-        label = _label({"products": _entries(raw, "products")}, "products", i)
+    entries = _entries(raw, "products")  # once: building it per product made this quadratic
+    for i, p in enumerate(entries):
+        label = _label({"products": entries}, "products", i)
         usage = p.get("usage")
         if isinstance(usage, dict):
             for res in usage:
@@ -138,8 +139,9 @@ def _cross_problems(raw: dict[str, Any]) -> list[Problem]:
             used = isinstance(usage, dict) and any(_num(v) and v > 0 and str(k) in resources for k, v in usage.items())
             if not used:
                 problems.append(Problem(f"{label}.max_volume", "a fixed-price product with no cap and no resource use would be made without limit", "set max_volume, a price_slope or usage"))
-    for i, o in enumerate(_entries(raw, "options")):
-        label = _label({"options": _entries(raw, "options")}, "options", i)
+    option_entries = _entries(raw, "options")
+    for i, o in enumerate(option_entries):
+        label = _label({"options": option_entries}, "options", i)
         whole, part = o.get("adds"), o.get("adds_up_to")
         if (whole is None) == (part is None):
             problems.append(Problem(label, "needs exactly one of 'adds' (all or nothing) or 'adds_up_to' (usable in part)"))

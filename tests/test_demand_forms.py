@@ -109,8 +109,9 @@ def test_history_fills_line_and_uncertainty(tmp_path):
     assert problems(product(history="sales.csv"), base_dir=tmp_path) == [
         "products[widget].demand.history: sales.csv has no rows for product 'widget' "
         "(add its rows, or set demand.product)"]
-    assert problems(product(history="nowhere.csv"), base_dir=tmp_path)[0].startswith(
-        "products[widget].demand.history (")
+    assert problems(product(history="nowhere.csv"), base_dir=tmp_path) == [
+        f"products[widget].demand.history: {tmp_path / 'nowhere.csv'}: cannot be read: No such file or directory "
+        "(check the history file's path)"]
 
 
 def test_wrong_sign_history_is_refused(tmp_path):
