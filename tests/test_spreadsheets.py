@@ -244,3 +244,15 @@ def test_yaml_still_reports_without_sheet_places():
     with pytest.raises(ScenarioError) as info:
         validate_scenario(raw, base_dir=CASES)
     assert [str(p) for p in info.value.problems] == ["products[gear A].unit_cost: must be a number (got 'x')"]
+
+
+@pytest.mark.parametrize("target", ["f.xlsx", "f_csv"])
+def test_floats_come_back_bit_for_bit(tmp_path, target):
+    import numpy as np
+
+    rng = np.random.default_rng(0)  # values needing all 17 significant digits, and extremes
+    vals = [float(x) for x in rng.uniform(0, 1000, 50)] + [0.1 + 0.2, 1 / 3, 1e-300, 5e-324, 1.7976931348623157e308]
+    raw = {"name": "f", "products": [{"name": f"p{i}", "price_intercept": v} for i, v in enumerate(vals)]}
+    write_scenario(raw, tmp_path / target)
+    back = [p["price_intercept"] for p in read_raw(tmp_path / target)["products"]]
+    assert [v.hex() for v in back] == [v.hex() for v in vals]

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import ast
 import inspect
+import math
 from functools import lru_cache
 from pathlib import Path
 from typing import Any
@@ -111,6 +112,10 @@ def _put(ws, row: int, col: int, value: Any) -> None:
     cell = ws.cell(row=row, column=col, value=value)
     if isinstance(value, str) and value.startswith("="):
         cell.data_type = "s"  # text, never a formula
+    elif isinstance(value, float) and math.isfinite(value) and float(f"{value:.16g}") != value:
+        # openpyxl writes numbers with 16 significant digits; this one needs 17 to come back exactly.
+        # The cell stays numeric (type 'n'); only the text written for it is the exact repr.
+        cell._value = repr(value)
 
 
 def _sheet(wb, name: str, header: list[str], rows: list[list[Any]], notes: bool) -> None:
