@@ -9,13 +9,25 @@ import click
 from rich.markup import escape
 from rich.table import Table
 
-from .errors import EXIT_BAD_INPUT, PlannerError, Problem, ScenarioError
+from .errors import EXIT_BAD_INPUT, PlannerError, Problem
 
 
 class TargetError(PlannerError):
     """An output path that cannot be used (exists, or an unknown form)."""
 
     exit_code = EXIT_BAD_INPUT
+
+
+class HistoryError(PlannerError):
+    """A sales-history file that cannot be read or fitted; lists every problem."""
+
+    exit_code = EXIT_BAD_INPUT
+
+    def __init__(self, problems: list[Problem], source: str) -> None:
+        self.problems = list(problems)
+        n = len(self.problems)
+        lines = [f"{source}: {n} problem{'s' if n != 1 else ''} in the sales history:"]
+        super().__init__("\n".join(lines + [f"  - {p}" for p in self.problems]))
 
 
 def _check_target(path: Path, force: bool) -> None:
@@ -33,6 +45,11 @@ def _g(v: float | None) -> str:
     return "∞" if v is None else f"{v:,.4g}"
 
 
+def _interval(ci: tuple[float | None, float | None]) -> str:
+    """'lo–hi'; '—' where the interval is undefined (fewer than 3 points); ∞ for an open end."""
+    return "—" if ci == (None, None) else f"{_g(ci[0])}–{_g(ci[1])}"
+
+
 def fit_table(lines, level: float = 0.95) -> Table:
     """The fits as a terminal table: line with intervals, R², n, observed price range, elasticity."""
     pct = f"{100 * level:g}%"
@@ -42,8 +59,8 @@ def fit_table(lines, level: float = 0.95) -> Table:
         t.add_column(col, justify="left" if col == "product" else "right", no_wrap=col != "product",
                      min_width=8 if col == "product" else None)
     for f in lines:
-        t.add_row(escape(f.product), f"{_g(f.intercept)}\n{_g(f.intercept_ci[0])}–{_g(f.intercept_ci[1])}",
-                  f"{_g(f.slope)}\n{_g(f.slope_ci[0])}–{_g(f.slope_ci[1])}", f"{f.r2:.3f}", str(f.n),
+        t.add_row(escape(f.product), f"{_g(f.intercept)}\n{_interval(f.intercept_ci)}",
+                  f"{_g(f.slope)}\n{_interval(f.slope_ci)}", f"{f.r2:.3f}", str(f.n),
                   f"{_g(f.price_min)}–{_g(f.price_max)}",
                   "—" if f.elasticity_at_mean is None else f"{f.elasticity_at_mean:.3g}")
     return t
@@ -152,14 +169,16 @@ def register(main: click.Group) -> None:
         if (scenario is None) != (out is None):
             raise TargetError("--into and --out go together")
         if not history.exists():
-            raise ScenarioError([Problem(str(history), "no such file", "check the path")])
-        lines, problems = fit_history(history, method=regress, level=level, products=list(products) or None)
-        if problems:
-            raise ScenarioError(problems, str(history))
+            raise HistoryError([Problem(str(history), "no such file", "check the path")], str(history))
+        lines, problems, unfit = fit_history(history, method=regress, level=level, products=list(products) or None)
+        if problems or not lines:
+            raise HistoryError(problems + unfit or [Problem(str(history), "has no rows to fit")], str(history))
         console.print(fit_table(lines, level))
         for f in lines:
             for w in f.warnings:
                 console.print(f"[yellow]warning:[/] {escape(f.product)}: {escape(w)}")
+        for u in unfit:
+            console.print(f"[yellow]warning:[/] not fitted: {escape(str(u))}")
         console.print(f"[dim]{regress}; intervals at {100 * level:g}%; the planner warns when a plan prices "
                       "outside the prices seen.[/]")
         if json_path:

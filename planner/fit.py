@@ -342,19 +342,22 @@ def read_history(path: str | Path) -> tuple[dict[str, dict[str, list]], list[Pro
 
 
 def fit_history(path: str | Path, method: str = "volume-on-price", level: float = 0.95,
-                products: list[str] | None = None) -> tuple[list[DemandLine], list[Problem]]:
-    """Fit every product in a history file (or only ``products``): (lines, problems)."""
+                products: list[str] | None = None) -> tuple[list[DemandLine], list[Problem], list[Problem]]:
+    """Fit every product in a history file (or only ``products``).
+
+    Returns (lines, problems with the file itself, products that could not be fitted and why).
+    """
     data, problems = read_history(path)
-    lines = []
+    lines, unfit = [], []
+    name_ = Path(path).name
     for name, d in data.items():
         if products and name not in products:
             continue
         try:
-            lines.append(fit_line(name, d["price"], d["volume"], method, level, d["period"] or None,
-                                  source=Path(path).name))
+            lines.append(fit_line(name, d["price"], d["volume"], method, level, d["period"] or None, source=name_))
         except ValueError as e:
-            problems.append(Problem(f"{Path(path).name}, product {name}", str(e)))
+            unfit.append(Problem(f"{name_}, product {name}", str(e)))
     for name in products or []:
-        if name not in data:
-            problems.append(Problem(str(Path(path).name), f"has no rows for product '{name}'"))
-    return lines, problems
+        if name not in data and not problems:
+            unfit.append(Problem(name_, f"has no rows for product '{name}'"))
+    return lines, problems, unfit

@@ -111,3 +111,17 @@ def test_template_fill_fit_plan_flow(tmp_path):
 def test_template_only_writes_workbooks(tmp_path, name):
     res = run("template", tmp_path / name)
     assert res.exit_code == 2 and "name it with .xlsx" in res.output
+
+
+def test_fit_demand_reports_products_it_cannot_fit(tmp_path):
+    h = tmp_path / "h.csv"
+    h.write_text("product,price,volume\nA,10,90\nA,12,80\nA,14,71\nB,5,5\nB,5,6\n")
+    res = run("fit-demand", h)
+    assert res.exit_code == 0, res.output
+    text = " ".join(res.output.split())
+    assert "warning: A: only 3 observations" not in text  # 3 points: standard errors exist
+    assert "warning: A: few points: 3 observations" in text
+    assert ("warning: not fitted: h.csv, product B: every observed price is 5: the history says nothing "
+            "about how volume answers price") in text
+    res = run("fit-demand", h, "--product", "B")
+    assert res.exit_code == 2 and "every observed price is 5" in res.output

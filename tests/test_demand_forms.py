@@ -99,7 +99,7 @@ def test_history_fills_line_and_uncertainty(tmp_path):
     s, warnings = validate_scenario(raw, base_dir=tmp_path)
     from planner.fit import fit_history
 
-    ref = next(f for f in fit_history(tmp_path / "sales.csv")[0] if f.product == "hub")
+    ref = next(f for f in fit_history(tmp_path / "sales.csv")[0] if f.product == "hub")  # same fit, directly
     p = s.products[0]
     assert p.price_intercept == ref.intercept and p.price_slope == ref.slope
     fit = p.demand_fit

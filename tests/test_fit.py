@@ -151,10 +151,10 @@ def test_fit_history_per_product_and_periods(tmp_path):
     lines = ["product,period,price,volume"] + [f"X,2025-{k + 1:02d},{float(p)!r},{float(v)!r}" for k, (p, v) in enumerate(zip(price, volume))]
     lines += ["Y,2025-01,10,5", "Y,2025-02,12,4", "Y,2025-03,14,2"]
     (tmp_path / "h.csv").write_text("\n".join(lines) + "\n")
-    fits, problems = fit_history(tmp_path / "h.csv")
-    assert problems == []
+    fits, problems, unfit = fit_history(tmp_path / "h.csv")
+    assert problems == [] and unfit == []
     x = next(f for f in fits if f.product == "X")
     assert x.n == 10 and x.periods == ("2025-01", "2025-10")
     assert x.slope == pytest.approx(-1 / scipy_stats.linregress(price, volume).slope, rel=1e-12)
-    _, problems = fit_history(tmp_path / "h.csv", products=["Z"])
-    assert [str(p) for p in problems] == ["h.csv: has no rows for product 'Z'"]
+    _, _, unfit = fit_history(tmp_path / "h.csv", products=["Z"])
+    assert [str(p) for p in unfit] == ["h.csv: has no rows for product 'Z'"]
