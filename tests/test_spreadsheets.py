@@ -77,6 +77,8 @@ def test_template_filled_in_plans(tmp_path):
     assert wb.sheetnames[:4] == ["about", "scenario", "products", "usage"]
     assert wb["products"]["B1"].value == "price_intercept"
     assert "Price at which demand falls to zero" in wb["products"]["B1"].comment.text  # from the schema
+    kinds = wb["resources"].data_validations.dataValidation[0]
+    assert str(kinds.sqref) == "D2:D5000" and kinds.formula1 == '"work_centre,material,other"'
     # A planner fills it in: one product from intercept and slope, one from a sales history.
     shutil.copy(CASES / "rich_sales.csv", tmp_path / "sales.csv")
     wb["scenario"]["B2"] = "Filled template"

@@ -169,4 +169,21 @@ def write_template(path: str | Path) -> Path:
                                               ["plant_fixed_cost", 0]], notes=True)
     for name in ORDER[1:]:
         _sheet(wb, name, list(COLUMNS[name]), [], notes=True)
+    _choices(wb, {("products", "must_run"): ["TRUE", "FALSE"],
+                  ("resources", "kind"): ["work_centre", "material", "other"],
+                  ("demand", "regress"): ["volume-on-price", "price-on-volume"],
+                  ("uncertainty", "field"): ["price_intercept", "price_slope", "unit_cost", "capacity"],
+                  ("uncertainty", "distribution"): ["normal", "triangular", "uniform", "fitted"]})
     return _save(wb, Path(path))
+
+
+def _choices(wb, lists: dict[tuple[str, str], list[str]], rows: int = 5000) -> None:
+    """Drop-down lists for columns with a fixed set of values (the validator still checks them)."""
+    from openpyxl.worksheet.datavalidation import DataValidation
+
+    for (sheet, col), values in lists.items():
+        ws = wb[sheet]
+        letter = ws.cell(row=1, column=COLUMNS[sheet].index(col) + 1).column_letter
+        dv = DataValidation(type="list", formula1='"' + ",".join(values) + '"', allow_blank=True)
+        ws.add_data_validation(dv)
+        dv.add(f"{letter}2:{letter}{rows}")
