@@ -20,7 +20,7 @@ def test_all_problems_in_one_pass():
     raw["currencyy"] = "$"
     assert problems(raw) == [
         "products[widget].price_slope: must be >= 0 (got -2)",
-        "products[widget].unit_cost: must be a number (got 'abc')",
+        "products[widget].unit_cost: must be a number (got 'abc') (write digits only, e.g. 1200 or 0.75)",
         "products[widget].fixd_cost: unknown key (did you mean 'fixed_cost'?)",
         "currencyy: unknown key (did you mean 'currency'?)",
         "products[widget].usage.pres: names a resource that is not defined (did you mean 'press'?)",
@@ -51,7 +51,7 @@ def test_missing_and_negative():
 def test_not_finite_and_contradictions():
     raw = tiny(price_intercept=float("nan"), min_volume=50, max_volume=10)
     assert problems(raw) == [
-        "products[widget].price_intercept: must be a finite number (got nan)",
+        "products[widget].price_intercept: must be a finite number (got nan) (write an ordinary number)",
         "products[widget].min_volume: committed volume 50 exceeds max_volume 10 (lower the commitment or raise the cap)",
     ]
 
