@@ -94,7 +94,7 @@ def _section_of(loc: tuple[Any, ...]) -> str:
 #: Fixes for the schema's own value errors, by the start of their message.
 _VALUE_FIXES = {
     "must be a number, not true/false": "write the amount in digits",
-    "is too large": "use a larger unit (thousands, tonnes) so amounts stay within 1e15",
+    "is too large": "use a larger unit, such as thousands or tonnes, so amounts stay within 1e15",
     "must be a finite number": "write an ordinary number",
 }
 
@@ -254,7 +254,9 @@ def _cross_problems(raw: dict[str, Any]) -> list[Problem]:
         if _num(run) and _num(hi2) and run > hi2:
             problems.append(Problem(f"{label}.min_run", f"minimum run {run:g} exceeds max_volume {hi2:g}", "the product could never run: lower min_run"))
         slope = p.get("price_slope", 0.0)
-        if _num(slope) and slope == 0 and p.get("max_volume") is None:
+        tidy = set(p) <= _FIELDS["products"] and (not isinstance(usage, dict) or all(
+            isinstance(k, str) and k.strip() in resources for k in usage))  # else its own problem explains
+        if tidy and _num(slope) and slope == 0 and p.get("max_volume") is None:
             used = isinstance(usage, dict) and any(_num(v) and v > 0 and str(k) in resources for k, v in usage.items())
             if not used:
                 problems.append(Problem(f"{label}.max_volume", "a fixed-price product with no cap and no resource use would be made without limit", "set max_volume, a price_slope or usage"))

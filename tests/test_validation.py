@@ -19,7 +19,7 @@ def test_all_problems_in_one_pass():
     raw = tiny(price_slope=-2, unit_cost="abc", fixd_cost=3, usage={"pres": 1})
     raw["currencyy"] = "$"
     assert problems(raw) == [
-        "products[widget].price_slope: must be >= 0 (got -2)",
+        "products[widget].price_slope: must be >= 0 (got -2) (give a value of 0 or more)",
         "products[widget].unit_cost: must be a number (got 'abc') (write digits only, e.g. 1200 or 0.75)",
         "products[widget].fixd_cost: unknown key (did you mean 'fixed_cost'?)",
         "currencyy: unknown key (did you mean 'currency'?)",
@@ -43,8 +43,8 @@ def test_missing_and_negative():
     raw["resources"][0]["capacity"] = -5
     assert problems(raw) == [
         "products[widget].price_intercept: is required but missing (add it)",
-        "products[widget].unit_cost: must be >= 0 (got -1)",
-        "resources[press].capacity: must be >= 0 (got -5)",
+        "products[widget].unit_cost: must be >= 0 (got -1) (give a value of 0 or more)",
+        "resources[press].capacity: must be >= 0 (got -5) (give a value of 0 or more)",
     ]
 
 
