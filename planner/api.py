@@ -9,6 +9,7 @@ import numpy as np
 from models.data import MixData
 
 from .economics import standalone
+from .infeasible import explain as explain_infeasible
 from .loading import load_scenario
 from .plan import Plan, ProductPlan, ResourcePlan, solver_versions
 from .prepare import mix_data
@@ -27,6 +28,7 @@ def plan(scenario: Scenario | str | Path, rel_gap: float = DEFAULT_GAP, time_lim
     if not isinstance(scenario, Scenario):
         scenario, warnings = load_scenario(scenario)
     d = mix_data(scenario, extra_capacity)
+    explain_infeasible(scenario, d)  # commitments that cannot fit: named, in the scenario's units
     sol = solve_mix(d, rel_gap=rel_gap, time_limit=time_limit, solver=solver, threads=threads, seed=seed)
     return build_plan(scenario, d, sol, warnings, threads)
 

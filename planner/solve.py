@@ -167,7 +167,12 @@ def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
         res = opt.solve(m)
         tc = res.termination_condition
         if tc == ATC.infeasible:
-            raise InfeasibleError(["the cut model is infeasible although every commitment fits; please report this"])
+            from .infeasible import iis_names
+
+            limits, held = iis_names(d)
+            raise InfeasibleError([f"HiGHS finds these limits and commitments in conflict: {', '.join(limits + held)}"]
+                                  if limits else ["the cut model is infeasible although every commitment fits; "
+                                                  "please report this"])
         if res.best_objective_bound is not None and np.isfinite(res.best_objective_bound):
             bound = min(bound, float(res.best_objective_bound))
         if res.best_feasible_objective is None:
