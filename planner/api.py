@@ -9,10 +9,12 @@ import numpy as np
 from models.data import MixData
 
 from .economics import standalone
+from .errors import PlannerError, SolverError
 from .infeasible import explain as explain_infeasible
 from .loading import load_scenario
 from .plan import Plan, ProductPlan, ResourcePlan, solver_versions
 from .prepare import mix_data
+from .scaling import solve_scaled
 from .schema import Scenario
 from .solve import DEFAULT_GAP, MixSolution, relative_gap, solve_mix
 
@@ -29,7 +31,13 @@ def plan(scenario: Scenario | str | Path, rel_gap: float = DEFAULT_GAP, time_lim
         scenario, warnings = load_scenario(scenario)
     d = mix_data(scenario, extra_capacity)
     explain_infeasible(scenario, d)  # commitments that cannot fit: named, in the scenario's units
-    sol = solve_mix(d, rel_gap=rel_gap, time_limit=time_limit, solver=solver, threads=threads, seed=seed)
+    try:
+        sol = solve_scaled(d, rel_gap=rel_gap, time_limit=time_limit, solver=solver, threads=threads, seed=seed)
+    except PlannerError:
+        raise
+    except Exception as e:  # a solver library's own failure: a clear message, never a bare traceback
+        raise SolverError(f"the solver failed ({type(e).__name__}: {e}); try --solver scip, or rerun with "
+                          "--debug and report it") from e
     return build_plan(scenario, d, sol, warnings, threads)
 
 

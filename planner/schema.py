@@ -21,6 +21,8 @@ from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, Fie
 
 #: Largest size of any number in a scenario; beyond it, amounts lose their cents in float arithmetic.
 MAX_MAGNITUDE = 1e15
+#: Smallest size of a number other than 0; below it, solver tolerances swamp it.
+MIN_MAGNITUDE = 1e-12
 
 
 def _finite(x: float) -> float:
@@ -28,6 +30,8 @@ def _finite(x: float) -> float:
         raise ValueError("must be a finite number")
     if abs(x) > MAX_MAGNITUDE:
         raise ValueError(f"is too large (more than {MAX_MAGNITUDE:.0e})")
+    if 0 < abs(x) < MIN_MAGNITUDE:
+        raise ValueError(f"is too small (below {MIN_MAGNITUDE:.0e} but not 0)")
     return x
 
 

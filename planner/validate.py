@@ -96,6 +96,7 @@ _VALUE_FIXES = {
     "must be a number, not true/false": "write the amount in digits",
     "is too large": "use a larger unit, such as thousands or tonnes, so amounts stay within 1e15",
     "must be a finite number": "write an ordinary number",
+    "is too small": "write 0, or change units so the amount is at least 1e-12",
 }
 
 _SECTION_HINT = {

@@ -180,6 +180,9 @@ EXPECTED: dict[str, list[str]] = {
     '51_decimal_comma_block.yaml': [
         "resources[mill].capacity: must be a plain number (got '4160,5') (write 4160.5 with a decimal point)",
     ],
+    '52_tiny_number.yaml': [
+        'products[bracket].usage.mill: is too small (below 1e-12 but not 0) (got 1e-300) (write 0, or change units so the amount is at least 1e-12)',
+    ],
 }
 
 
