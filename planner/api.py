@@ -38,11 +38,11 @@ def plan(scenario: Scenario | str | Path, rel_gap: float = DEFAULT_GAP, time_lim
     except Exception as e:  # a solver library's own failure: a clear message, never a bare traceback
         raise SolverError(f"the solver failed ({type(e).__name__}: {e}); try --solver scip, or rerun with "
                           "--debug and report it") from e
-    return build_plan(scenario, d, sol, warnings, threads)
+    return build_plan(scenario, d, sol, warnings, threads, seed)
 
 
 def build_plan(s: Scenario, d: MixData, sol: MixSolution, warnings: list[str] | None = None,
-               threads: int = 1) -> Plan:
+               threads: int = 1, seed: int = 0) -> Plan:
     """Assemble the Plan from the solution; checks every limit (a violated one is an error)."""
     vol = clean_volumes(sol.volume, d)
     econ = standalone(d.a, d.b, d.v, d.F, d.cap)
@@ -81,7 +81,8 @@ def build_plan(s: Scenario, d: MixData, sol: MixSolution, warnings: list[str] | 
     profit = product_profit - s.plant_fixed_cost
     bound = max(float(sol.bound), product_profit) - s.plant_fixed_cost
     info = {"strategy": sol.strategy, "rounds": sol.rounds, "seconds": sol.seconds,
-            "qp_method": sol.qp_method, "threads": threads, "messages": sol.messages, "versions": solver_versions()}
+            "qp_method": sol.qp_method, "threads": threads, "random_seed": seed, "messages": sol.messages,
+            "versions": solver_versions()}
     return Plan(scenario=s.name, status=sol.status, profit=profit, bound=bound,
                 gap=relative_gap(bound, profit), products=products, resources=resources,
                 currency=s.currency, period=s.period, plant_fixed_cost=s.plant_fixed_cost,

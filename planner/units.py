@@ -37,7 +37,7 @@ _ALIASES = {
 }
 _CANON = {alias: canon for canon, aliases in _ALIASES.items() for alias in aliases}
 
-_NUMBER = r"[-+]?(?:\d[\d,_ ']*)?\.?\d*(?:[eE][-+]?\d+)?"
+_NUMBER = r"[-+]?\.?\d[\d,._ ']*(?:[eE][-+]?\d+)?"
 _WITH_UNIT = re.compile(rf"^\s*(?P<num>{_NUMBER})\s*(?P<unit>[^\d\s].*?)\s*$")
 _CURRENCY = "$€£¥₹"
 
