@@ -122,7 +122,7 @@ def greedy_profit(raw: dict) -> float:
     return best
 
 
-def check_plan(raw: dict, p) -> None:
+def check_plan(raw: dict, p, gap: float = GAP) -> None:
     prods = {x["name"]: x for x in raw["products"]}
     caps = {r["name"]: r["capacity"] for r in raw["resources"]}
     used = {r: 0.0 for r in caps}
@@ -141,7 +141,7 @@ def check_plan(raw: dict, p) -> None:
     for r, cap in caps.items():
         assert used[r] <= cap * (1 + LIMIT_REL) + 1e-9, (r, used[r], cap)
     if p.status == "optimal":
-        assert p.gap <= GAP * (1 + 1e-9)
+        assert p.gap <= gap * (1 + 1e-9)
 
 
 def check_no_single_move(raw: dict, p) -> None:
@@ -213,7 +213,7 @@ def corrupted(draw) -> dict:
     return raw
 
 
-@settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow], derandomize=True)
+@settings(max_examples=120, deadline=None, suppress_health_check=[HealthCheck.too_slow], derandomize=True)
 @given(corrupted())
 def test_corrupted_scenarios_give_a_plan_or_a_scenario_error(raw):
     try:
@@ -222,11 +222,20 @@ def test_corrupted_scenarios_give_a_plan_or_a_scenario_error(raw):
         assert e.problems and all(str(p) for p in e.problems)
         return
     try:
-        p = plan(s, rel_gap=1e-4, time_limit=5)
+        p = plan(s, rel_gap=1e-4, time_limit=1)
     except PlannerError as e:
         assert str(e)
         return
-    check_plan(raw, p) if p.status == "optimal" else None
+    check_plan(as_raw(s), p, gap=1e-4)
+
+
+def as_raw(s) -> dict:
+    """The validated scenario as a raw dict with its defaults filled in (no max_volume where none)."""
+    raw = s.model_dump()
+    for p in raw["products"]:
+        if p["max_volume"] is None:
+            del p["max_volume"]
+    return raw
 
 
 VALID_YAML = yaml.safe_dump({"name": "fuzz", "products": [
