@@ -226,6 +226,12 @@ def _entries(raw: dict[str, Any], section: str) -> list[dict[str, Any]]:
     return [x for x in items if isinstance(x, dict)] if isinstance(items, list) else []
 
 
+def _indexed(raw: dict[str, Any], section: str) -> list[tuple[int, dict[str, Any]]]:
+    """(position in the file's list, entry) for each entry that is a mapping."""
+    items = raw.get(section) or []
+    return [(i, x) for i, x in enumerate(items) if isinstance(x, dict)] if isinstance(items, list) else []
+
+
 def _names(raw: dict[str, Any], section: str) -> list[str]:
     return [str(x["name"]).strip() for x in _entries(raw, section) if isinstance(x.get("name"), str)]
 
@@ -238,8 +244,8 @@ def _cross_problems(raw: dict[str, Any]) -> list[Problem]:
             if count > 1:
                 problems.append(Problem(f"{section}[{name}]", f"name used {count} times", "names must be unique"))
     resources = set(_names(raw, "resources"))
-    for i, p in enumerate(_entries(raw, "products")):
-        label = _label({"products": _entries(raw, "products")}, "products", i)
+    for i, p in _indexed(raw, "products"):
+        label = _label(raw, "products", i)
         usage = p.get("usage")
         if isinstance(usage, dict):
             for res in usage:
@@ -261,8 +267,8 @@ def _cross_problems(raw: dict[str, Any]) -> list[Problem]:
             used = isinstance(usage, dict) and any(_num(v) and v > 0 and str(k) in resources for k, v in usage.items())
             if not used:
                 problems.append(Problem(f"{label}.max_volume", "a fixed-price product with no cap and no resource use would be made without limit", "set max_volume, a price_slope or usage"))
-    for i, o in enumerate(_entries(raw, "options")):
-        label = _label({"options": _entries(raw, "options")}, "options", i)
+    for i, o in _indexed(raw, "options"):
+        label = _label(raw, "options", i)
         whole, part = o.get("adds"), o.get("adds_up_to")
         if (whole is None) == (part is None):
             problems.append(Problem(label, "needs exactly one of 'adds' (all or nothing) or 'adds_up_to' (usable in part)"))
@@ -306,11 +312,14 @@ def _size_problems(raw: dict[str, Any]) -> list[Problem]:
 def scenario_warnings(s: Scenario) -> list[str]:
     """Legal but probably unintended things, for the user to see."""
     warnings = []
-    for r in s.resources:
-        users = [p.name for p in s.products if p.usage.get(r.name, 0) > 0]
-        if r.capacity == 0 and users:
-            warnings.append(f"resources[{r.name}]: capacity is 0, so {_listing(users)} "
-                            f"cannot be made")
+    zero = {r.name: [] for r in s.resources if r.capacity == 0}
+    for p in (s.products if zero else []):
+        for res, amount in p.usage.items():
+            if res in zero and amount > 0:
+                zero[res].append(p.name)
+    for res, users in zero.items():
+        if users:
+            warnings.append(f"resources[{res}]: capacity is 0, so {_listing(users)} cannot be made")
     for p in s.products:
         if p.price_intercept <= p.unit_cost and p.min_volume == 0 and not p.must_run:
             warnings.append(
