@@ -172,8 +172,8 @@ def _pydantic_problems(raw: dict[str, Any], err: ValidationError) -> list[Proble
             bound = {"greater_than_equal": ">= 0", "greater_than": "> 0"}.get(kind, f"<= {e.get('ctx', {}).get('le')}")
             if kind != "less_than_equal" and e.get("ctx", {}).get("ge", e.get("ctx", {}).get("gt", 0)) != 0:
                 bound = f"{'>=' if kind == 'greater_than_equal' else '>'} {e['ctx'].get('ge', e['ctx'].get('gt'))}"
-            problems.append(Problem(where, f"must be {bound} (got {_show(got)})",
-                                    "give a value of 0 or more" if bound == ">= 0" else ""))
+            fix = {">= 0": "give a value of 0 or more", "> 0": "give a value above 0, or leave the entry out"}
+            problems.append(Problem(where, f"must be {bound} (got {_show(got)})", fix.get(bound, "")))
         elif kind in ("float_parsing", "float_type") and isinstance(got, str):
             message, fix = amount_hint(got, **_amount_context(raw, loc))
             problems.append(Problem(where, f"{message} (got {_show(got)})", fix))
@@ -320,6 +320,14 @@ def scenario_warnings(s: Scenario) -> list[str]:
     for res, users in zero.items():
         if users:
             warnings.append(f"resources[{res}]: capacity is 0, so {_listing(users)} cannot be made")
+    capacity = {r.name: r.capacity for r in s.resources}
+    for p in s.products:
+        if p.min_run > 0 and not p.must_run and p.min_volume == 0:
+            for res, amount in p.usage.items():
+                if res in capacity and capacity[res] > 0 and amount * p.min_run > capacity[res] * (1 + 1e-9):
+                    warnings.append(f"products[{p.name}]: its min_run {p.min_run:g} needs {amount * p.min_run:g} "
+                                    f"of {res}, which has {capacity[res]:g}: it can never run")
+                    break
     for p in s.products:
         if p.price_intercept <= p.unit_cost and p.min_volume == 0 and not p.must_run:
             warnings.append(

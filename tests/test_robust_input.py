@@ -88,3 +88,35 @@ def test_unit_spellings_and_rate_checks():
         "must be a plain number", "write 2: the unit belongs in resources[mill].unit")
     assert amount_hint("3 min/pcs", resource="mill", resource_unit="h", product="a", product_unit="pieces")[0] == (
         "must be a plain number, and its unit disagrees: 'min' is not the unit of resources[mill] ('h')")
+
+
+def test_scenario_changed_in_code_is_checked_before_solving():
+    """model_copy(update=...) skips pydantic's validation; the planner checks again before the solver."""
+    from planner import plan
+
+    s, _ = validate_scenario(tiny())
+    negative = s.model_copy(update={"resources": [s.resources[0].model_copy(update={"capacity": -5.0})]})
+    with pytest.raises(ScenarioError) as info:
+        plan(negative)
+    assert [str(p) for p in info.value.problems] == ["resources[press].capacity: must be a finite number >= 0 (got -5.0)"]
+    misspelt = s.model_copy(update={"products": [s.products[0].model_copy(update={"usage": {"pres": 1.0}})]})
+    with pytest.raises(ScenarioError) as info:
+        plan(misspelt)
+    assert [str(p) for p in info.value.problems] == [
+        "products[widget].usage.pres: names a resource that is not defined (did you mean 'press'?)"]
+    with pytest.raises(ScenarioError, match="extra_capacity.saw: names a resource that is not defined"):
+        plan(s, extra_capacity={"saw": 10.0})
+
+
+def test_min_run_that_can_never_fit_is_a_warning():
+    _, warnings = validate_scenario(tiny(min_run=1500, fixed_cost=10.0))  # 1,500 h on a 1,000 h press
+    assert warnings == ["products[widget]: its min_run 1500 needs 1500 of press, which has 1000: it can never run"]
+
+
+def test_option_amount_must_be_positive():
+    raw = tiny()
+    raw["options"] = [{"name": "shift", "adds": {"press": 0}, "cost": 10}]
+    with pytest.raises(ScenarioError) as info:
+        validate_scenario(raw)
+    assert [str(p) for p in info.value.problems] == [
+        "options[shift].adds.press: must be > 0 (got 0) (give a value above 0, or leave the entry out)"]
