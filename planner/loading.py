@@ -150,15 +150,30 @@ def _check_size(p: Path) -> None:
         raise ScenarioError([Problem(str(p), f"is larger than {MAX_FILE_BYTES // 2**20} MiB", "split the scenario")])
 
 
+def _near_files(p: Path) -> str:
+    """'did you mean ...?' for a scenario file with a close name in the same folder, or ''."""
+    import difflib
+
+    try:
+        names = [f.name for f in p.parent.iterdir() if f.suffix.lower() in READERS or f.is_dir()][:10_000]
+    except OSError:
+        return ""
+    close = difflib.get_close_matches(p.name, names, n=1, cutoff=0.75)
+    return f"did you mean '{p.parent / close[0]}'?" if close else ""
+
+
 def read_raw(path: str | Path) -> Any:
     """The raw scenario dict from any supported form, without validation."""
     p = Path(path)
     if not p.exists():
-        raise ScenarioError([Problem(str(p), "no such file or folder", "check the path")])
+        raise ScenarioError([Problem(str(p), "no such file or folder", _near_files(p) or "check the path")])
     if p.is_file():
         _check_size(p)
     key = "/" if p.is_dir() else p.suffix.lower()
     reader = READERS.get(key)
+    if reader is None and key == "/":
+        forms = ", ".join(k for k in sorted(READERS) if k != "/")
+        raise ScenarioError([Problem(str(p), "is a folder", f"give a scenario file: {forms}")])
     if reader is None:
         forms = ", ".join(k for k in sorted(READERS) if k != "/")
         raise ScenarioError([Problem(str(p), f"unsupported scenario form '{key}'", f"use one of: {forms}")])

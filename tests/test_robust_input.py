@@ -120,3 +120,16 @@ def test_option_amount_must_be_positive():
         validate_scenario(raw)
     assert [str(p) for p in info.value.problems] == [
         "options[shift].adds.press: must be > 0 (got 0) (give a value above 0, or leave the entry out)"]
+
+
+def test_missing_file_suggests_a_close_name(tmp_path):
+    (tmp_path / "spring.yaml").write_text(yaml.safe_dump(tiny()))
+    with pytest.raises(ScenarioError) as info:
+        load_scenario(tmp_path / "spring.yml")
+    assert [str(p) for p in info.value.problems] == [
+        f"{tmp_path / 'spring.yml'}: no such file or folder (did you mean '{tmp_path / 'spring.yaml'}'?)"]
+
+
+def test_a_folder_is_not_a_scenario(tmp_path):
+    with pytest.raises(ScenarioError, match="is a folder"):
+        load_scenario(tmp_path)
