@@ -64,7 +64,9 @@ def _yaml_problem(e: yaml.YAMLError, data: bytes) -> Problem:
     mark = getattr(e, "problem_mark", None)
     where = f"line {mark.line + 1}, column {mark.column + 1}" if mark else ""
     what = str(getattr(e, "problem", None) or e).strip()
-    if "constructor for the tag" in what:
+    if "another document" in what:
+        fix = "keep one scenario per file: remove the '---' line and what follows, or split the file"
+    elif "constructor for the tag" in what:
         fix = "remove the '!!' tag: scenario files hold plain values only"
     elif "tab" in what:
         fix = "indent with spaces, not tabs"
@@ -127,7 +129,11 @@ def read_yaml_checked(path: Path) -> tuple[Any, list[Problem]]:
     if raw is None:
         raise ScenarioError([Problem("", "the file is empty (or holds only comments)",
                                      "start it with 'name:' and 'products:'")], str(path))
-    if _expanded_size(raw, {}) > MAX_NODES:
+    try:
+        size = _expanded_size(raw, {})
+    except RecursionError:
+        raise ScenarioError([Problem("", "is nested too deeply to read", "flatten the file")], str(path)) from None
+    if size > MAX_NODES:
         raise ScenarioError([Problem("", f"expands to more than {MAX_NODES:,} values (YAML aliases?)",
                                      "write the scenario out without nested aliases")], str(path))
     return raw, loader.duplicates

@@ -9,6 +9,7 @@ legal but probably not meant) are returned alongside.
 
 from __future__ import annotations
 
+import datetime
 import difflib
 import math
 from collections import Counter
@@ -188,8 +189,14 @@ def _pydantic_problems(raw: dict[str, Any], err: ValidationError) -> list[Proble
                 problems.append(Problem(where, f"is empty (must be {noun})", "give a value or remove the key"))
             elif kind == "list_type" and len(loc) == 1 and str(loc[0]) in _SECTION_HINT:
                 problems.append(Problem(where, f"must be a list (got {_show(got)})", _SECTION_HINT[str(loc[0])]))
+            elif kind == "string_type" and isinstance(got, datetime.date):
+                problems.append(Problem(where, f"must be text, but YAML reads {got.isoformat()} as a date",
+                                        f"quote it: '{got.isoformat()}'"))
             elif kind == "string_type" and isinstance(got, (int, float)):
-                problems.append(Problem(where, f"must be text (got {_show(got)})", f"quote it: '{got}'"))
+                shown = str(got).lower() if isinstance(got, bool) else got
+                problems.append(Problem(where, f"must be text (got {_show(got)})", f"quote it: '{shown}'"))
+            elif kind.startswith("float") and isinstance(got, int) and not isinstance(got, bool):
+                problems.append(Problem(where, f"is too large (got {_show(got)})", _VALUE_FIXES["is too large"]))
             else:
                 problems.append(Problem(where, f"must be {noun} (got {_show(got)})",
                                         "write true or false" if noun.startswith("true") else ""))
@@ -200,6 +207,10 @@ def _pydantic_problems(raw: dict[str, Any], err: ValidationError) -> list[Proble
             msg = str(e.get("ctx", {}).get("error", e["msg"]))
             fix = next((f for start, f in _VALUE_FIXES.items() if msg.startswith(start)), "")
             problems.append(Problem(where, f"{msg} (got {_show(got)})", fix))
+        elif kind == "invalid_key":
+            problems.append(Problem(_where(raw, loc[:-1]) if len(loc) > 1 else "",
+                                    f"keys must be text (got {_show(loc[-1] if loc else got)})",
+                                    "quote the key, or remove it"))
         elif kind == "model_type":
             problems.append(Problem(where, f"must be a mapping of keys (got {_show(got)})",
                                     "write 'key: value' lines under it"))

@@ -183,6 +183,28 @@ EXPECTED: dict[str, list[str]] = {
     '52_tiny_number.yaml': [
         'products[bracket].usage.mill: is too small (below 1e-12 but not 0) (got 1e-300) (write 0, or change units so the amount is at least 1e-12)',
     ],
+    '53_nested_too_deep.yaml': [
+        'is nested too deeply to read (flatten the file)',
+    ],
+    '54_integer_too_large.yaml': [
+        'resources[mill].capacity: is too large (more than 1e+15) (got 999999999999999999999999999999) (use a larger unit, such as thousands or tonnes, so amounts stay within 1e15)',
+    ],
+    '55_key_not_text.yaml': [
+        'keys must be text (got 2024) (quote the key, or remove it)',
+    ],
+    '56_date_as_name.yaml': [
+        "name: must be text, but YAML reads 2026-04-01 as a date (quote it: '2026-04-01')",
+    ],
+    '57_two_documents.yaml': [
+        "line 12, column 1: is not valid YAML: but found another document (keep one scenario per file: remove the '---' line and what follows, or split the file)",
+    ],
+    '58_alias_misused.yaml': [
+        'options[bracket].price_intercept: unknown key (allowed keys: adds, adds_up_to, cost, cost_per_unit, description, name)',
+        'options[bracket].price_slope: unknown key (allowed keys: adds, adds_up_to, cost, cost_per_unit, description, name)',
+        "options[bracket].unit_cost: unknown key (did you mean 'cost'?)",
+        'options[bracket].usage: unknown key (allowed keys: adds, adds_up_to, cost, cost_per_unit, description, name)',
+        "options[bracket]: needs exactly one of 'adds' (all or nothing) or 'adds_up_to' (usable in part)",
+    ],
 }
 
 
