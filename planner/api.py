@@ -10,7 +10,7 @@ from models.data import MixData
 
 from .economics import standalone
 from .errors import PlannerError, SolverError
-from .guard import check_names, check_numbers, check_volumes
+from .guard import check_extra_capacity, check_names, check_numbers, check_volumes
 from .infeasible import explain as explain_infeasible
 from .loading import load_scenario
 from .plan import Plan, ProductPlan, ResourcePlan, solver_versions
@@ -31,12 +31,7 @@ def plan(scenario: Scenario | str | Path, rel_gap: float = DEFAULT_GAP, time_lim
     if not isinstance(scenario, Scenario):
         scenario, warnings = load_scenario(scenario)
     check_names(scenario)  # a Scenario changed in code skips the validator: nothing unchecked reaches the solver
-    if extra_capacity:
-        unknown = sorted(set(extra_capacity) - {r.name for r in scenario.resources})
-        if unknown:
-            from .errors import Problem, ScenarioError
-
-            raise ScenarioError([Problem(f"extra_capacity.{n}", "names a resource that is not defined") for n in unknown])
+    check_extra_capacity(scenario, extra_capacity)
     d = mix_data(scenario, extra_capacity)
     check_numbers(scenario, d)
     explain_infeasible(scenario, d)  # commitments that cannot fit: named, in the scenario's units

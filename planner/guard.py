@@ -41,6 +41,15 @@ def check_names(s: Scenario) -> None:
         raise ScenarioError(problems, _SOURCE)
 
 
+def check_extra_capacity(s: Scenario, extra: dict[str, float] | None) -> None:
+    """Raise ScenarioError if ``extra`` (resource name → amount added) names an undefined resource."""
+    defined = {r.name for r in s.resources}
+    unknown = sorted(set(extra or {}) - defined)
+    if unknown:
+        raise ScenarioError([Problem(f"extra_capacity.{n}", "names a resource that is not defined",
+                                     did_you_mean(n, defined)) for n in unknown])
+
+
 def check_numbers(s: Scenario, d: MixData) -> None:
     """Raise ScenarioError for any number that is not finite and ≥ 0 (caps may be infinite)."""
     problems = []

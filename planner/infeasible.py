@@ -104,8 +104,10 @@ def explain(s: Scenario, d: MixData) -> None:
     if not found:
         return
     need = d.used(committed_floor(d))
-    adds = [f"{s.resources[r].name} +{fmt(need[r] - d.capacity[r])}{(' ' + s.resources[r].unit) if s.resources[r].unit else ''}"
-            for r in short_resources(d)]
+    adds = []
+    for r in short_resources(d):
+        res = s.resources[r]
+        adds.append(f"{res.name} +{fmt(need[r] - d.capacity[r])}{' ' + res.unit if res.unit else ''}")
     found.append(f"to fit, add capacity ({', '.join(adds)})")
     cuts = smallest_cuts(d)
     if cuts:

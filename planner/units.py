@@ -98,7 +98,8 @@ def amount_hint(text: str, resource: str | None = None, resource_unit: str = "",
     raw = str(text)
     if raw.strip().endswith("%"):
         pct = split_amount(raw.strip()[:-1])
-        example = f"write {raw.strip()} as {pct.value / 100:g}" if pct and pct.value is not None else "write 15% as 0.15"
+        example = (f"write {raw.strip()} as {pct.value / 100:g}" if pct and pct.value is not None
+                   else "write 15% as 0.15")
         return "must be a plain number, not a percentage", example
     amt = split_amount(raw)
     if amt is None:
@@ -120,9 +121,10 @@ def amount_hint(text: str, resource: str | None = None, resource_unit: str = "",
         clashes.append(f"'{per.strip()}' is not the unit of products[{product}] ('{product_unit}')")
     if clashes:
         return (f"must be a plain number, and its unit disagrees: {'; '.join(clashes)}",
-                f"convert the amount to {resource_unit}" + (f" per {product_unit}" if per.strip() and product_unit else "")
-                + f" and write the number alone")
+                f"convert the amount to {resource_unit}"
+                + (f" per {product_unit}" if per.strip() and product_unit else "") + " and write the number alone")
     where = f"resources[{resource}].unit" if resource else "the 'unit:' field"
     if resource and not resource_unit:
-        return "must be a plain number", f"write {num} and state the unit once as unit: {unit.strip()} under resources[{resource}]"
+        return ("must be a plain number",
+                f"write {num} and state the unit once as unit: {unit.strip()} under resources[{resource}]")
     return "must be a plain number", f"write {num}: the unit belongs in {where}"
