@@ -205,6 +205,9 @@ EXPECTED: dict[str, list[str]] = {
         'options[bracket].usage: unknown key (allowed keys: adds, adds_up_to, cost, cost_per_unit, description, name)',
         "options[bracket]: needs exactly one of 'adds' (all or nothing) or 'adds_up_to' (usable in part)",
     ],
+    '59_unit_in_number_none_stated.yaml': [
+        "resources[mill].capacity: must be a plain number (got '4160 hours') (write 4160 and state the unit once as unit: hours under resources[mill])",
+    ],
 }
 
 
