@@ -17,7 +17,7 @@ from .plan import Plan, ProductPlan, ResourcePlan, solver_versions
 from .prepare import mix_data
 from .scaling import solve_scaled
 from .schema import Scenario
-from .solve import DEFAULT_GAP, MixSolution, relative_gap, solve_mix
+from .solve import DEFAULT_GAP, MixSolution, relative_gap
 
 #: Relative tolerance for calling a limit binding and for checking a plan's limits.
 LIMIT_TOL = 1e-7

@@ -21,10 +21,9 @@ number of examples so it fits in CI.
 from __future__ import annotations
 
 import copy
-import itertools
+import json
 import math
 
-import numpy as np
 import pytest
 import yaml
 from hypothesis import HealthCheck, given, settings
@@ -182,6 +181,7 @@ def test_generated_plans_keep_limits_beat_greedy_and_are_locally_optimal(raw):
         return
     check_plan(raw, p)
     check_no_single_move(raw, p)
+    assert json.loads(p.to_json())["status"] == p.status  # strict JSON: no NaN or infinity anywhere
     assert p.profit >= greedy_profit(raw) - GAP * max(abs(p.profit), 1.0) * 1.01 - 1e-7
 
 
