@@ -101,9 +101,12 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
 @friendly
 def check_cmd(scenario: Path, debug: bool) -> None:
     """Validate SCENARIO and list every problem, without solving."""
+    from .infeasible import explain
     from .loading import load_scenario
+    from .prepare import mix_data
 
     s, warnings = load_scenario(scenario)
+    explain(s, mix_data(s))  # commitments that cannot fit: exit 3 with the conflicts named
     for w in warnings:
         console.print(f"[yellow]warning:[/] {w}")
     console.print(f"{scenario}: valid — {len(s.products)} products, {len(s.resources)} resources, "

@@ -123,3 +123,11 @@ def test_elastic_cuts_are_minimal_and_make_it_plannable():
         raw["products"][k]["min_volume"] = float(new[k])
     p = plan(validate_scenario(raw)[0])
     assert p.status == "optimal"
+
+
+def test_check_command_reports_infeasible_commitments(tmp_path):
+    f = tmp_path / "s.yaml"
+    f.write_text(yaml.safe_dump(two_on_the_mill()))
+    res = CliRunner().invoke(main, ["check", str(f)])
+    assert res.exit_code == 3
+    assert "need 5,200 h of mill; it has 4,160 h (short by 1,040 h)" in res.stderr
