@@ -10,11 +10,15 @@ from models.data import MixData
 
 from .demand import extrapolation_warnings
 from .economics import standalone
+from .errors import PlannerError, SolverError
+from .guard import check_extra_capacity, check_names, check_numbers, check_volumes
+from .infeasible import explain as explain_infeasible
 from .loading import load_scenario
 from .plan import Plan, ProductPlan, ResourcePlan, solver_versions
 from .prepare import mix_data
+from .scaling import solve_scaled
 from .schema import Scenario
-from .solve import DEFAULT_GAP, MixSolution, relative_gap, solve_mix
+from .solve import DEFAULT_GAP, MixSolution, relative_gap
 
 #: Relative tolerance for calling a limit binding and for checking a plan's limits.
 LIMIT_TOL = 1e-7
@@ -27,15 +31,26 @@ def plan(scenario: Scenario | str | Path, rel_gap: float = DEFAULT_GAP, time_lim
     warnings: list[str] = []
     if not isinstance(scenario, Scenario):
         scenario, warnings = load_scenario(scenario)
+    check_names(scenario)  # a Scenario changed in code skips the validator: nothing unchecked reaches the solver
+    check_extra_capacity(scenario, extra_capacity)
     d = mix_data(scenario, extra_capacity)
-    sol = solve_mix(d, rel_gap=rel_gap, time_limit=time_limit, solver=solver, threads=threads, seed=seed)
-    return build_plan(scenario, d, sol, warnings, threads)
+    check_numbers(scenario, d)
+    explain_infeasible(scenario, d)  # commitments that cannot fit: named, in the scenario's units
+    try:
+        sol = solve_scaled(d, rel_gap=rel_gap, time_limit=time_limit, solver=solver, threads=threads, seed=seed)
+    except PlannerError:
+        raise
+    except Exception as e:  # a solver library's own failure: a clear message, never a bare traceback
+        raise SolverError(f"the solver failed ({type(e).__name__}: {e}); try --solver scip, or rerun with "
+                          "--debug and report it") from e
+    return build_plan(scenario, d, sol, warnings, threads, seed)
 
 
 def build_plan(s: Scenario, d: MixData, sol: MixSolution, warnings: list[str] | None = None,
-               threads: int = 1) -> Plan:
+               threads: int = 1, seed: int = 0) -> Plan:
     """Assemble the Plan from the solution; checks every limit (a violated one is an error)."""
     vol = clean_volumes(sol.volume, d)
+    check_volumes(d, vol, sol.running, LIMIT_TOL)
     econ = standalone(d.a, d.b, d.v, d.F, d.cap)
     products = []
     for k, p in enumerate(s.products):
@@ -72,7 +87,8 @@ def build_plan(s: Scenario, d: MixData, sol: MixSolution, warnings: list[str] | 
     profit = product_profit - s.plant_fixed_cost
     bound = max(float(sol.bound), product_profit) - s.plant_fixed_cost
     info = {"strategy": sol.strategy, "rounds": sol.rounds, "seconds": sol.seconds,
-            "qp_method": sol.qp_method, "threads": threads, "messages": sol.messages, "versions": solver_versions()}
+            "qp_method": sol.qp_method, "threads": threads, "random_seed": seed, "messages": sol.messages,
+            "versions": solver_versions()}
     return Plan(scenario=s.name, status=sol.status, profit=profit, bound=bound,
                 gap=relative_gap(bound, profit), products=products, resources=resources,
                 currency=s.currency, period=s.period, plant_fixed_cost=s.plant_fixed_cost,

@@ -102,9 +102,12 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
 @friendly
 def check_cmd(scenario: Path, debug: bool) -> None:
     """Validate SCENARIO and list every problem, without solving."""
+    from .infeasible import explain
     from .loading import load_scenario
+    from .prepare import mix_data
 
     s, warnings = load_scenario(scenario)
+    explain(s, mix_data(s))  # commitments that cannot fit: exit 3 with the conflicts named
     for w in warnings:
         console.print(f"[yellow]warning:[/] {escape(w)}")
     console.print(f"{scenario}: valid — {len(s.products)} products, {len(s.resources)} resources, "
@@ -113,8 +116,10 @@ def check_cmd(scenario: Path, debug: bool) -> None:
 
 @main.command("demo")
 @click.option("--json", "json_path", type=click.Path(path_type=Path), default=None, help="Write the plan as JSON.")
+@click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=None, metavar="SECONDS",
+              help="Stop with the best plan found and its certified gap.")
 @friendly
-def demo_cmd(json_path: Path | None) -> None:
+def demo_cmd(json_path: Path | None, time_limit: float | None) -> None:
     """Plan the shipped demo scenario (a try-it command)."""
     from .api import plan
     from .output import write_text_atomic
@@ -122,7 +127,7 @@ def demo_cmd(json_path: Path | None) -> None:
 
     path = demo_path()
     console.print(f"[dim]scenario: {path}[/]")
-    p = plan(path)
+    p = plan(path, time_limit=time_limit)
     if json_path:
         write_text_atomic(json_path, p.to_json())
     print_plan(p, console)

@@ -17,18 +17,33 @@ from __future__ import annotations
 import math
 from typing import Annotated, Literal
 
-from pydantic import AfterValidator, BaseModel, ConfigDict, Field
+from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, Field
+
+#: Largest size of any number in a scenario; beyond it, amounts lose their cents in float arithmetic.
+MAX_MAGNITUDE = 1e15
+#: Smallest size of a number other than 0; below it, solver tolerances swamp it.
+MIN_MAGNITUDE = 1e-12
 
 
 def _finite(x: float) -> float:
     if not math.isfinite(x):
         raise ValueError("must be a finite number")
+    if abs(x) > MAX_MAGNITUDE:
+        raise ValueError(f"is too large (more than {MAX_MAGNITUDE:.0e})")
+    if 0 < abs(x) < MIN_MAGNITUDE:
+        raise ValueError(f"is too small (below {MIN_MAGNITUDE:.0e} but not 0)")
     return x
 
 
-Number = Annotated[float, AfterValidator(_finite)]
-NonNegative = Annotated[float, AfterValidator(_finite), Field(ge=0)]
-Positive = Annotated[float, AfterValidator(_finite), Field(gt=0)]
+def _no_bool(x: object) -> object:
+    if isinstance(x, bool):  # pydantic would read true as 1.0
+        raise ValueError("must be a number, not true/false")
+    return x
+
+
+Number = Annotated[float, BeforeValidator(_no_bool), AfterValidator(_finite)]
+NonNegative = Annotated[float, BeforeValidator(_no_bool), AfterValidator(_finite), Field(ge=0)]
+Positive = Annotated[float, BeforeValidator(_no_bool), AfterValidator(_finite), Field(gt=0)]
 Name = Annotated[str, Field(min_length=1, max_length=200)]
 
 

@@ -87,6 +87,9 @@ def solve_mix(d: MixData, rel_gap: float = DEFAULT_GAP, time_limit: float | None
     elif not d.can_stop.any():
         qp = solve_slate_qp(d, np.ones(d.n, dtype=bool), time_limit, threads, seed)
         _raise_on(qp)
+        if qp.status == "time_limit":
+            raise SolverError("the time limit ran out before HiGHS finished the QP (a convex QP has no plan to "
+                              "show until it ends): raise --time-limit")
         sol = _from_qp(qp, np.ones(d.n, dtype=bool), "qp", qp.bound)
     else:
         sol = _outer_approximation(d, rel_gap, time_limit, threads, seed)
@@ -167,7 +170,12 @@ def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
         res = opt.solve(m)
         tc = res.termination_condition
         if tc == ATC.infeasible:
-            raise InfeasibleError(["the cut model is infeasible although every commitment fits; please report this"])
+            from .infeasible import iis_names
+
+            limits, held = iis_names(d)
+            raise InfeasibleError([f"HiGHS finds these limits and commitments in conflict: {', '.join(limits + held)}"]
+                                  if limits else ["the cut model is infeasible although every commitment fits; "
+                                                  "please report this"])
         if res.best_objective_bound is not None and np.isfinite(res.best_objective_bound):
             bound = min(bound, float(res.best_objective_bound))
         if res.best_feasible_objective is None:
@@ -193,10 +201,26 @@ def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
         if not over.any():
             break  # the MILP's value is exact at its point: the gap is the MILP's own
         add_cuts(m, d, np.flatnonzero(over), vol[over])
+    fell_back = slates.best is None and deadline is not None and status != "error"
+    if fell_back:  # the time limit ended the search before any slate was solved: a feasible plan anyway
+        from .fallback import fallback_slates
+
+        status = "time_limit"
+        for fallback in fallback_slates(d):
+            qp = solve_slate_qp(d, fallback, None, threads, seed)
+            if qp.status == "optimal":
+                slates.best = (qp, fallback)
+                break
     if slates.best is None:
         raise SolverError("no feasible plan was found in the time allowed: raise --time-limit")
+    if not np.isfinite(bound):
+        from .fallback import standalone_bound
+
+        bound = standalone_bound(d)  # valid without the MILP: the shared limits dropped
     qp, slate = slates.best
     sol = _from_qp(qp, slate, "outer-approximation", bound, rounds)
+    if fell_back:
+        sol.messages.append("the time limit ended the search before any slate was solved: a fallback slate is shown")
     if status == "optimal" and sol.gap > rel_gap:
         status = "time_limit" if rounds >= max_rounds else "optimal"
         sol.messages.append(f"stopped at gap {sol.gap:.2e} after {rounds} rounds")

@@ -55,7 +55,7 @@ def test_infeasible_exits_3_naming_the_limit(tmp_path):
     f.write_text(yaml.safe_dump(raw))
     res = CliRunner().invoke(main, ["plan", str(f)])
     assert res.exit_code == 3
-    assert "committed volumes of widget need 1,500 of press; it has 1,000 (short by 500)" in res.output
+    assert "committed volume of widget (1,500 units) needs 1,500 h of press; it has 1,000 h (short by 500 h)" in res.output
 
 
 def test_yaml_syntax_error_names_the_line(tmp_path):

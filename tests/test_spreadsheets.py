@@ -174,7 +174,7 @@ def test_sheet_names_in_any_case(tmp_path):
     wb["PRODUCTS"]["D3"] = "abc"
     wb.save(tmp_path / "c.xlsx")
     assert messages(tmp_path / "c.xlsx") == [
-        "sheet PRODUCTS, row 3, column unit_cost (products[walnut desk].unit_cost): must be a number (got 'abc')"]
+        "sheet PRODUCTS, row 3, column unit_cost (products[walnut desk].unit_cost): must be a number (got 'abc') (write digits only, e.g. 1200 or 0.75)"]
 
 
 def test_text_in_number_cell(bad):
@@ -186,7 +186,7 @@ def test_text_in_number_cell(bad):
 
     edit(target, "products", fn)
     assert messages(target) == [
-        f"{at('products')}, row 3, column unit_cost (products[gear B].unit_cost): must be a number (got 'eighty')"]
+        f"{at('products')}, row 3, column unit_cost (products[gear B].unit_cost): must be a number (got 'eighty') (write digits only, e.g. 1200 or 0.75)"]
 
 
 def test_empty_row_in_the_middle(bad):
@@ -218,10 +218,10 @@ def test_every_problem_in_one_pass_with_places(bad):
     edit(target, "resources", lambda rows: [r if i != 2 else [r[0], "lots", *r[2:]] for i, r in enumerate(rows)])
     got = messages(target)
     assert got == [
-        f"{at('products')}, row 2, column price_slope (products[gear A].price_slope): must be >= 0 (got -1)",
+        f"{at('products')}, row 2, column price_slope (products[gear A].price_slope): must be >= 0 (got -1) (give a value of 0 or more)",
         f"{at('products')}, row 2, column fixd_cost (products[gear A].fixd_cost): unknown key "
         "(did you mean 'fixed_cost'?)",
-        f"{at('resources')}, row 3, column capacity (resources[mill].capacity): must be a number (got 'lots')",
+        f"{at('resources')}, row 3, column capacity (resources[mill].capacity): must be a number (got 'lots') (write digits only, e.g. 1200 or 0.75)",
     ]
 
 
@@ -245,7 +245,7 @@ def test_yaml_still_reports_without_sheet_places():
 
     with pytest.raises(ScenarioError) as info:
         validate_scenario(raw, base_dir=CASES)
-    assert [str(p) for p in info.value.problems] == ["products[gear A].unit_cost: must be a number (got 'x')"]
+    assert [str(p) for p in info.value.problems] == ["products[gear A].unit_cost: must be a number (got 'x') (write digits only, e.g. 1200 or 0.75)"]
 
 
 @pytest.mark.parametrize("target", ["f.xlsx", "f_csv"])

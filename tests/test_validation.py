@@ -19,8 +19,8 @@ def test_all_problems_in_one_pass():
     raw = tiny(price_slope=-2, unit_cost="abc", fixd_cost=3, usage={"pres": 1})
     raw["currencyy"] = "$"
     assert problems(raw) == [
-        "products[widget].price_slope: must be >= 0 (got -2)",
-        "products[widget].unit_cost: must be a number (got 'abc')",
+        "products[widget].price_slope: must be >= 0 (got -2) (give a value of 0 or more)",
+        "products[widget].unit_cost: must be a number (got 'abc') (write digits only, e.g. 1200 or 0.75)",
         "products[widget].fixd_cost: unknown key (did you mean 'fixed_cost'?)",
         "currencyy: unknown key (did you mean 'currency'?)",
         "products[widget].usage.pres: names a resource that is not defined (did you mean 'press'?)",
@@ -43,15 +43,15 @@ def test_missing_and_negative():
     raw["resources"][0]["capacity"] = -5
     assert problems(raw) == [
         "products[widget].price_intercept: is required but missing (add it)",
-        "products[widget].unit_cost: must be >= 0 (got -1)",
-        "resources[press].capacity: must be >= 0 (got -5)",
+        "products[widget].unit_cost: must be >= 0 (got -1) (give a value of 0 or more)",
+        "resources[press].capacity: must be >= 0 (got -5) (give a value of 0 or more)",
     ]
 
 
 def test_not_finite_and_contradictions():
     raw = tiny(price_intercept=float("nan"), min_volume=50, max_volume=10)
     assert problems(raw) == [
-        "products[widget].price_intercept: must be a finite number (got nan)",
+        "products[widget].price_intercept: must be a finite number (got nan) (write an ordinary number)",
         "products[widget].min_volume: committed volume 50 exceeds max_volume 10 (lower the commitment or raise the cap)",
     ]
 

@@ -1,0 +1,240 @@
+"""The broken-input catalogue: every file in tests/broken/ is refused with exactly these problems.
+
+Each file is a small scenario with the mistakes a person makes by hand (its
+name says which).  Through the CLI (click's runner) each must exit with code 2
+and print exactly the listed problems, location first, with the fix in
+brackets, and never a traceback.  The expected texts are the specification:
+change them only on purpose.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from planner.cli import main
+
+BROKEN = Path(__file__).resolve().parent / "broken"
+
+EXPECTED: dict[str, list[str]] = {
+    '01_empty.yaml': [
+        "the file is empty (or holds only comments) (start it with 'name:' and 'products:')",
+    ],
+    '02_only_comments.yaml': [
+        "the file is empty (or holds only comments) (start it with 'name:' and 'products:')",
+    ],
+    '03_top_level_list.yaml': [
+        "the scenario must be a mapping of keys (got list) (start the file with 'name:' and 'products:')",
+    ],
+    '04_top_level_text.yaml': [
+        "the scenario must be a mapping of keys (got str) (start the file with 'name:' and 'products:')",
+    ],
+    '05_tab_indent.yaml': [
+        'line 4, column 1: is not valid YAML: found a tab character that violates indentation (indent with spaces, not tabs)',
+    ],
+    '06_not_utf8.yaml': [
+        'line 3, column 14: is not UTF-8 text (byte 0xe9) (save the file with UTF-8 encoding)',
+    ],
+    '07_colon_in_text.yaml': [
+        "line 1, column 16: is not valid YAML: mapping values are not allowed in this context (put a space after each colon, and quote text that contains ': ')",
+    ],
+    '08_unclosed_bracket.yaml': [
+        "line 8, column 10: is not valid YAML: did not find expected ',' or '}' (check indentation, colons and brackets)",
+    ],
+    '09_duplicate_key.yaml': [
+        "line 7, column 5: key 'unit_cost' is given twice in the same mapping (first on line 6) (keep one: otherwise only the last would count)",
+    ],
+    '10_duplicate_section.yaml': [
+        "line 12, column 1: key 'resources' is given twice in the same mapping (first on line 8) (keep one: otherwise only the last would count)",
+        'products[bracket].usage.mill: names a resource that is not defined (add it under resources or fix the name)',
+    ],
+    '11_misspelt_key.yaml': [
+        "products[bracket].unit_cst: unknown key (did you mean 'unit_cost'?)",
+    ],
+    '12_misspelt_section.yaml': [
+        "resorces: unknown key (did you mean 'resources'?)",
+        'products[bracket].usage.mill: names a resource that is not defined (add it under resources or fix the name)',
+    ],
+    '13_key_case_and_spaces.yaml': [
+        "products[bracket].Price Intercept: unknown key (did you mean 'price_intercept'?)",
+    ],
+    '14_misspelt_resource.yaml': [
+        "products[bracket].usage.mil: names a resource that is not defined (did you mean 'mill'?)",
+    ],
+    '15_resource_case.yaml': [
+        "products[bracket].usage.Mill: names a resource that is not defined (did you mean 'mill'?)",
+    ],
+    '16_missing_name.yaml': [
+        'products[1].name: is required but missing (add it)',
+    ],
+    '17_missing_price.yaml': [
+        'products[bracket].price_intercept: is required but missing (add it)',
+    ],
+    '18_negative_cost.yaml': [
+        'products[bracket].unit_cost: must be >= 0 (got -20) (give a value of 0 or more)',
+    ],
+    '19_yes_for_number.yaml': [
+        'products[bracket].unit_cost: must be a number, not true/false (got True) (write the amount in digits)',
+    ],
+    '20_thousands_separator.yaml': [
+        "resources[mill].capacity: must be a plain number (got '4,160') (write 4160 without thousands separators)",
+    ],
+    '21_unit_in_capacity.yaml': [
+        "resources[mill].capacity: must be a plain number (got '4160 h') (write 4160: the unit belongs in resources[mill].unit)",
+    ],
+    '22_capacity_unit_clash.yaml': [
+        "resources[mill].capacity: must be a plain number, and its unit disagrees: 'kg' is not the unit of resources[mill] ('h') (got '4160 kg') (convert the amount to h and write the number alone)",
+    ],
+    '23_usage_rate_unit_clash.yaml': [
+        "products[bracket].usage.mill: must be a plain number, and its unit disagrees: 'kg' is not the unit of products[bracket] ('pieces') (got '0.5 h/kg') (convert the amount to h per pieces and write the number alone)",
+    ],
+    '24_option_unit_clash.yaml': [
+        "options[Saturday shift].adds.mill: must be a plain number, and its unit disagrees: 'kg' is not the unit of resources[mill] ('h') (got '624 kg') (convert the amount to h and write the number alone)",
+    ],
+    '25_currency_in_price.yaml': [
+        "products[bracket].price_intercept: must be a plain number (got '€50') (write 50: the currency is set once by 'currency:')",
+    ],
+    '26_percentage.yaml': [
+        "products[bracket].price_slope: must be a plain number, not a percentage (got '1%') (write 1% as 0.01)",
+    ],
+    '27_decimal_comma.yaml': [
+        "products[bracket].usage.5: '5' has no amount: a decimal comma splits the number inside { } (write decimals with a point, e.g. 0.5)",
+    ],
+    '28_huge_number.yaml': [
+        'resources[mill].capacity: is too large (more than 1e+15) (got 1e+300) (use a larger unit, such as thousands or tonnes, so amounts stay within 1e15)',
+    ],
+    '29_infinite_capacity.yaml': [
+        'resources[mill].capacity: must be a finite number (got inf) (write an ordinary number)',
+    ],
+    '30_nan_price.yaml': [
+        'products[bracket].price_intercept: must be a finite number (got nan) (write an ordinary number)',
+    ],
+    '31_products_as_mapping.yaml': [
+        "products: must be a list (got {'bracket': {'price_intercept': 50, 'unit_cost': 20}}) (write each product as a list entry starting '- name: ...')",
+    ],
+    '32_no_products.yaml': [
+        'products: must not be empty (list at least one entry)',
+    ],
+    '33_products_left_blank.yaml': [
+        "products: is empty (list the products under it, each starting '- name: ...')",
+    ],
+    '34_usage_as_list.yaml': [
+        "products[bracket].usage: must be a mapping of name: amount (got ['mill', 0.5])",
+    ],
+    '35_resource_name_number.yaml': [
+        "products[bracket].usage.2024: names must be text (got 2024) (quote it: '2024')",
+        "resources[1].name: must be text (got 2024) (quote it: '2024')",
+    ],
+    '36_duplicate_product.yaml': [
+        'products[bracket]: name used 2 times (names must be unique)',
+    ],
+    '37_commitment_above_cap.yaml': [
+        'products[bracket].min_volume: committed volume 900 exceeds max_volume 500 (lower the commitment or raise the cap)',
+    ],
+    '38_min_run_above_cap.yaml': [
+        'products[bracket].min_run: minimum run 800 exceeds max_volume 500 (the product could never run: lower min_run)',
+    ],
+    '39_unbounded_fixed_price.yaml': [
+        'products[bracket].max_volume: a fixed-price product with no cap and no resource use would be made without limit (set max_volume, a price_slope or usage)',
+    ],
+    '40_option_adds_and_adds_up_to.yaml': [
+        "options[overtime]: needs exactly one of 'adds' (all or nothing) or 'adds_up_to' (usable in part)",
+        "options[overtime].cost: is required with 'adds' (give the option's cost for the period)",
+        "options[overtime].cost_per_unit: goes with 'adds_up_to', not 'adds' (use 'cost' for an all-or-nothing option)",
+    ],
+    '41_option_unknown_resource.yaml': [
+        "options[overtime].adds_up_to.milling: names a resource that is not defined (did you mean 'mill'?)",
+    ],
+    '42_kind_misspelt.yaml': [
+        "resources[mill].kind: must be one of 'work_centre', 'material' or 'other' (got 'workcentre') (did you mean 'work_centre'?)",
+    ],
+    '43_must_run_maybe.yaml': [
+        "products[bracket].must_run: must be true or false (got 'maybe') (write true or false)",
+    ],
+    '44_value_left_blank.yaml': [
+        'products[bracket].unit_cost: is empty (must be a number) (give a value or remove the key)',
+    ],
+    '45_many_mistakes.yaml': [
+        "products[bracket].unit_cost: must be a number (got 'twenty') (write digits only, e.g. 1200 or 0.75)",
+        "products[bracket].price_slop: unknown key (did you mean 'price_slope'?)",
+        'resources[mill].capacity: must be >= 0 (got -4160) (give a value of 0 or more)',
+        "products[bracket].usage.mil: names a resource that is not defined (did you mean 'mill'?)",
+    ],
+    '46_alias_bomb.yaml': [
+        'expands to more than 20,000,000 values (YAML aliases?) (write the scenario out without nested aliases)',
+    ],
+    '47_empty_name.yaml': [
+        'products[1].name: must not be empty (give a name)',
+    ],
+    '48_scenario_name_missing.yaml': [
+        'name: is required but missing (add it)',
+    ],
+    '49_negative_usage.yaml': [
+        'products[bracket].usage.mill: must be >= 0 (got -0.5) (give a value of 0 or more)',
+    ],
+    '50_yaml_tag.yaml': [
+        "line 1, column 1: is not valid YAML: could not determine a constructor for the tag 'tag:yaml.org,2002:python/object/apply:os.system' (remove the '!!' tag: scenario files hold plain values only)",
+    ],
+    '51_decimal_comma_block.yaml': [
+        "resources[mill].capacity: must be a plain number (got '4160,5') (write 4160.5 with a decimal point)",
+    ],
+    '52_tiny_number.yaml': [
+        'products[bracket].usage.mill: is too small (below 1e-12 but not 0) (got 1e-300) (write 0, or change units so the amount is at least 1e-12)',
+    ],
+    '53_nested_too_deep.yaml': [
+        'is nested too deeply to read (flatten the file)',
+    ],
+    '54_integer_too_large.yaml': [
+        'resources[mill].capacity: is too large (more than 1e+15) (got 999999999999999999999999999999) (use a larger unit, such as thousands or tonnes, so amounts stay within 1e15)',
+    ],
+    '55_key_not_text.yaml': [
+        'keys must be text (got 2024) (quote the key, or remove it)',
+    ],
+    '56_date_as_name.yaml': [
+        "name: must be text, but YAML reads 2026-04-01 as a date (quote it: '2026-04-01')",
+    ],
+    '57_two_documents.yaml': [
+        "line 12, column 1: is not valid YAML: but found another document (keep one scenario per file: remove the '---' line and what follows, or split the file)",
+    ],
+    '58_alias_misused.yaml': [
+        'options[bracket].price_intercept: unknown key (allowed keys: adds, adds_up_to, cost, cost_per_unit, description, name)',
+        'options[bracket].price_slope: unknown key (allowed keys: adds, adds_up_to, cost, cost_per_unit, description, name)',
+        "options[bracket].unit_cost: unknown key (did you mean 'cost'?)",
+        'options[bracket].usage: unknown key (allowed keys: adds, adds_up_to, cost, cost_per_unit, description, name)',
+        "options[bracket]: needs exactly one of 'adds' (all or nothing) or 'adds_up_to' (usable in part)",
+    ],
+    '59_unit_in_number_none_stated.yaml': [
+        "resources[mill].capacity: must be a plain number (got '4160 hours') (write 4160 and state the unit once as unit: hours under resources[mill])",
+    ],
+}
+
+
+def test_catalogue_is_complete():
+    files = sorted(p.name for p in BROKEN.iterdir() if p.is_file())
+    assert files == sorted(EXPECTED)
+    assert len(files) >= 40
+
+
+@pytest.mark.parametrize("name", sorted(EXPECTED))
+def test_broken_input_is_refused_exactly(name):
+    path = BROKEN / name
+    problems = EXPECTED[name]
+    res = CliRunner().invoke(main, ["check", str(path)])
+    assert res.exception is None or isinstance(res.exception, SystemExit), repr(res.exception)
+    assert res.exit_code == 2
+    count = len(problems)
+    head = f"error: {path}: {count} problem{'s' if count != 1 else ''} in the scenario:"
+    assert res.stderr == "\n".join([head] + [f"  - {p}" for p in problems]) + "\n"
+    assert "Traceback" not in res.output
+
+
+@pytest.mark.parametrize("name", ["09_duplicate_key.yaml", "22_capacity_unit_clash.yaml", "45_many_mistakes.yaml"])
+def test_plan_refuses_the_same_way(name):
+    """`planner plan` validates through the same path: same exit code and problems."""
+    path = BROKEN / name
+    res = CliRunner().invoke(main, ["plan", str(path)])
+    assert res.exit_code == 2
+    for p in EXPECTED[name]:
+        assert f"  - {p}\n" in res.stderr
