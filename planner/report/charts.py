@@ -1,0 +1,322 @@
+"""The report's charts (matplotlib, Agg, no pyplot state): every number drawn comes from the Plan.
+
+Four kinds, each a function returning a :class:`Chart`:
+
+- :func:`product_chart` — one product's revenue, total cost and profit against
+  volume over its whole demand range (0 to a/b, where the price reaches 0),
+  with the break-even volumes, the standalone optimum, the maximum-revenue
+  volume and the mix's volume marked and labelled with their values;
+- :func:`mix_chart` — each product's volume and profit in the plan, shut-down
+  products drawn as such;
+- :func:`resources_chart` — utilisation of each resource with its shadow price;
+- :func:`sweep_chart` — profit and shadow price against capacity from a sweep
+  dict (``points`` [{capacity, profit, shadow_price, ...}], ``breakpoints``
+  [{capacity, change}]), with the slate changes marked.
+
+Marked points carry a matplotlib ``gid`` (``mark-break-even``,
+``mark-standalone-optimum``, ``mark-max-revenue``, ``mark-mix``) so tests can
+read back exactly what was drawn.  Amounts are in the plan's currency per
+period; volumes in each product's unit per period.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import matplotlib
+
+matplotlib.use("Agg")  # never open a window, whatever the environment says
+
+import numpy as np  # noqa: E402
+from matplotlib import rc_context  # noqa: E402
+from matplotlib.figure import Figure  # noqa: E402
+from matplotlib.ticker import FuncFormatter, MaxNLocator  # noqa: E402
+
+from ..plan import Plan, ProductPlan  # noqa: E402
+from ..schema import Product  # noqa: E402
+from .fmt import money, num, slug  # noqa: E402
+from .style import PALETTE as C  # noqa: E402
+from .style import RC  # noqa: E402
+
+
+@dataclass
+class Chart:
+    """A drawn chart: ``key`` is its file stem; ``marks`` the values of its marked points."""
+
+    key: str
+    title: str
+    caption: str
+    figure: Figure
+    marks: dict[str, Any] = field(default_factory=dict)
+    _svg: bytes | None = field(default=None, repr=False)
+
+    def svg(self) -> bytes:
+        """The chart as SVG bytes (rendered once, then reused for the file and the HTML page)."""
+        if self._svg is None:
+            self._svg = render(self, "svg")
+        return self._svg
+
+
+def _money_axis(ax, currency: str, axis: str = "y") -> None:
+    def f(x, _pos):
+        ax_ = abs(x)
+        if ax_ >= 1e6:
+            text = f"{ax_ / 1e6:,.1f}M"
+        elif ax_ >= 1e4:
+            text = f"{ax_ / 1e3:,.0f}k"
+        else:
+            text = f"{ax_:,.0f}"
+        return f"{'-' if x < 0 else ''}{currency}{text}"
+
+    (ax.yaxis if axis == "y" else ax.xaxis).set_major_formatter(FuncFormatter(f))
+
+
+def _thousands_axis(ax, axis: str = "x") -> None:
+    (ax.xaxis if axis == "x" else ax.yaxis).set_major_formatter(FuncFormatter(lambda x, _p: f"{x:,.0f}"))
+
+
+def _volume_range(sp: Product, pp: ProductPlan) -> float:
+    """Right end of the volume axis (units): where demand's price reaches 0, or a sensible span for fixed prices."""
+    a, b = sp.price_intercept, sp.price_slope
+    if b > 0:
+        return a / b
+    s = pp.standalone
+    known = [x for x in (sp.max_volume, s.optimal_volume, pp.volume, *(v for v in s.break_even if v)) if x]
+    return 1.25 * max(known) if known else 100.0
+
+
+def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str) -> Chart:
+    """Revenue, total cost and profit of one product against volume, with its key volumes marked."""
+    a, b, v, F = sp.price_intercept, sp.price_slope, sp.unit_cost, sp.fixed_cost
+    s = pp.standalone
+    unit = pp.unit or "units"
+    xmax = _volume_range(sp, pp)
+    D = np.linspace(0.0, xmax, 400)
+    revenue = (a - b * D) * D
+    cost = F + v * D
+    profit = revenue - cost
+    marks: dict[str, Any] = {}
+    with rc_context(RC):
+        fig = Figure(figsize=(7.6, 4.3), layout="constrained")
+        ax = fig.add_subplot()
+        ax.plot(D, revenue, color=C["revenue"], lw=2.2, label="revenue")
+        ax.plot(D, cost, color=C["cost"], lw=2.0, ls=(0, (6, 3)), label="total cost (fixed + variable)")
+        ax.plot(D, profit, color=C["profit"], lw=2.4, label="profit")
+        ax.axhline(0, color=C["muted"], lw=0.9)
+        if sp.max_volume is not None and sp.max_volume < xmax:
+            ax.axvspan(sp.max_volume, xmax, color=C["off"], alpha=0.18, lw=0)
+            ax.text(sp.max_volume, 0.02, f"  beyond the cap of {num(sp.max_volume)}", transform=ax.get_xaxis_transform(),
+                    color=C["muted"], fontsize=8, va="bottom")
+        ymax = float(max(revenue.max(), cost[-1] if b == 0 else revenue.max(), 1.0))
+        # Far beyond the optimum the profit curve plunges; keep the view on the region that matters.
+        ymin = float(min(0.0, max(profit.min(), -0.6 * ymax), -F, pp.profit))
+
+        def mark(gid, xs, ys, marker, color, size, label, texts):
+            line, = ax.plot(xs, ys, ls="none", marker=marker, ms=size, color=color, mec=C["ink"], mew=0.8,
+                            zorder=5, label=label)
+            line.set_gid(gid)
+            for x, y, t in zip(xs, ys, texts):
+                ax.annotate(t, (x, y), xytext=(6, 7), textcoords="offset points", fontsize=8, color=C["ink"],
+                            zorder=6, bbox={"boxstyle": "round,pad=0.15", "fc": C["paper"], "ec": "none", "alpha": 0.8})
+
+        be = [x for x in s.break_even if x is not None]
+        if be:
+            marks["break_even"] = [(x, 0.0) for x in be]
+            mark("mark-break-even", be, [0.0] * len(be), "D", C["panel"], 7,
+                 "break-even: " + " and ".join(num(x) for x in be) + f" {unit}", [num(x) for x in be])
+        if s.max_revenue_volume is not None:
+            x = s.max_revenue_volume
+            y = (a - b * x) * x
+            marks["max_revenue"] = (x, y)
+            mark("mark-max-revenue", [x], [y], "^", C["revenue"], 8,
+                 f"max revenue: {num(x)} {unit}, {money(y, currency)}", [num(x)])
+        if s.optimal_volume is not None and s.max_profit is not None:
+            marks["standalone_optimum"] = (s.optimal_volume, s.max_profit)
+            mark("mark-standalone-optimum", [s.optimal_volume], [s.max_profit], "o", C["profit"], 8,
+                 f"best on its own: {num(s.optimal_volume)} {unit}, profit {money(s.max_profit, currency)}",
+                 [num(s.optimal_volume)])
+        if pp.running:
+            marks["mix"] = (pp.volume, pp.profit)
+            mark("mark-mix", [pp.volume], [pp.profit], "*", C["accent"], 15,
+                 f"in the mix: {num(pp.volume)} {unit}, profit {money(pp.profit, currency)}", [num(pp.volume)])
+            ax.axvline(pp.volume, color=C["accent"], lw=1.2, ls=":", zorder=1)
+        else:
+            marks["mix"] = (0.0, pp.profit)
+            mark("mark-mix", [0.0], [pp.profit], "X", C["off"], 11,
+                 f"in the mix: shut down (saves the fixed cost {money(F, currency)})", ["shut down"])
+        ax.set_xlim(0, xmax)
+        pad = 0.06 * (ymax - ymin or 1.0)
+        ax.set_ylim(ymin - pad, ymax + 2.2 * pad)
+        ax.set_xlabel(f"volume ({unit} per {period})")
+        ax.set_ylabel(f"amount ({currency} per {period})")
+        _money_axis(ax, currency)
+        _thousands_axis(ax)
+        ax.set_title(pp.name)
+        ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0, handlelength=2.2)
+    caption = (f"{pp.name}: price {money(a, currency, 2)} − {b:g} × volume per {unit}; variable cost "
+               f"{money(v, currency, 2)} per {unit}; fixed cost {money(F, currency)} per {period} "
+               "(avoided only by shutting the product down). Standalone values ignore shared limits.")
+    return Chart(key=f"product-{slug(pp.name)}", title=f"{pp.name}: revenue, cost and profit against volume",
+                 caption=caption, figure=fig, marks=marks)
+
+
+def mix_chart(plan: Plan) -> Chart:
+    """Each product's volume and profit in the plan; shut-down products marked as such."""
+    prods = list(reversed(plan.products))  # first product at the top
+    names = [p.name for p in prods]
+    y = np.arange(len(prods))
+    units = {p.unit for p in plan.products}
+    vol_label = f"volume ({units.pop()} per {plan.period})" if len(units) == 1 else f"volume (each product's unit, per {plan.period})"
+    with rc_context({**RC, "axes.grid.axis": "x"}):
+        fig = Figure(figsize=(9.0, 0.5 * len(prods) + 1.6), layout="constrained")
+        ax_v, ax_p = fig.subplots(1, 2, sharey=True, gridspec_kw={"wspace": 0.05})
+        vols = [p.volume for p in prods]
+        profits = [p.profit for p in prods]
+        ax_v.barh(y, vols, color=[C["revenue"] if p.running else C["off"] for p in prods], height=0.62)
+        colours = [C["off"] if not p.running else (C["profit"] if p.profit >= 0 else C["cost"]) for p in prods]
+        ax_p.barh(y, profits, color=colours, height=0.62)
+        vmax = max(vols + [1.0])
+        pmin, pmax = min(profits + [0.0]), max(profits + [1.0])
+        for k, p in enumerate(prods):
+            if p.running:
+                ax_v.text(p.volume + 0.01 * vmax, k, f"{num(p.volume)} {p.unit}", va="center", fontsize=8.5)
+                ax_p.text(p.profit + 0.01 * (pmax - pmin) if p.profit >= 0 else p.profit - 0.01 * (pmax - pmin), k,
+                          money(p.profit, plan.currency), va="center", ha="left" if p.profit >= 0 else "right",
+                          fontsize=8.5)
+            else:
+                for ax in (ax_v, ax_p):
+                    ax.text(0.01, k, "shut down", transform=ax.get_yaxis_transform(), va="center",
+                            fontsize=8.5, color=C["muted"], style="italic")
+        ax_v.set_yticks(y, [n + ("  (must run)" if p.must_run else "") for n, p in zip(names, prods)])
+        ax_v.set_xlim(0, vmax * 1.28)
+        ax_p.set_xlim(min(pmin * 1.3, 0), pmax * 1.32)
+        ax_p.axvline(0, color=C["muted"], lw=0.9)
+        ax_v.set_xlabel(vol_label)
+        ax_p.set_xlabel(f"profit after its fixed cost ({plan.currency} per {plan.period})")
+        _thousands_axis(ax_v)
+        _money_axis(ax_p, plan.currency, axis="x")
+        ax_p.xaxis.set_major_locator(MaxNLocator(5))
+        ax_v.set_title("Volume in the mix")
+        ax_p.set_title("Profit by product")
+        ax_p.tick_params(axis="y", length=0)
+    return Chart(key="mix", title="The mix: volume and profit by product",
+                 caption=(f"Bars for running products; shut-down products make nothing and pay no fixed cost. "
+                          f"Total profit {money(plan.profit, plan.currency)} after the plant-wide fixed cost "
+                          f"{money(plan.plant_fixed_cost, plan.currency)}."),
+                 figure=fig)
+
+
+def resources_chart(plan: Plan) -> Chart:
+    """Utilisation of each resource (%) beside its shadow price (currency per resource unit)."""
+    res = list(reversed(plan.resources))
+    y = np.arange(len(res))
+    cur = plan.currency
+    with rc_context({**RC, "axes.grid.axis": "x"}):
+        fig = Figure(figsize=(9.0, 0.5 * max(len(res), 1) + 1.6), layout="constrained")
+        ax_u, ax_s = fig.subplots(1, 2, sharey=True, gridspec_kw={"width_ratios": [1.25, 1]})
+        util = [100 * r.utilisation for r in res]
+        ax_u.barh(y, [100] * len(res), color=C["grid"], height=0.62)
+        ax_u.barh(y, util, color=[C["accent"] if r.binding else C["revenue"] for r in res], height=0.62)
+        for k, r in enumerate(res):
+            u = f" {r.unit}" if r.unit else ""
+            ax_u.text(101.5, k, f"{num(r.used)} of {num(r.capacity)}{u}", va="center", fontsize=8.5)
+        ax_u.axvline(100, color=C["ink"], lw=1.0)
+        ax_u.set_xlim(0, 150)
+        ax_u.set_xticks([0, 25, 50, 75, 100])
+        ax_u.set_yticks(y, [r.name + ("  ◆ binding" if r.binding else "") for r in res])
+        ax_u.set_xlabel("utilisation (% of capacity used)")
+        ax_u.set_title("Utilisation")
+        sps = [r.shadow_price for r in res]
+        smax = max(sps + [1e-9])
+        ax_s.barh(y, sps, color=[C["accent"] if r.shadow_price > 0 else C["off"] for r in res], height=0.62)
+        for k, r in enumerate(res):
+            per = r.unit or "unit"
+            text = f"{money(r.shadow_price, cur, 2)} per {per}" if r.shadow_price > 0 else "0 (spare capacity)"
+            rng = getattr(r, "shadow_price_range", None)
+            if r.shadow_price > 0 and rng and len(rng) == 2 and all(x is not None for x in rng):
+                text += f"\nholds {num(rng[0])}–{num(rng[1])} {r.unit}".rstrip()
+            ax_s.text(r.shadow_price + 0.02 * smax, k, text, va="center", fontsize=8.5)
+        ax_s.set_xlim(0, smax * 1.9 if smax > 1e-9 else 1)
+        ax_s.set_xlabel(f"shadow price ({cur} of profit per extra unit)")
+        ax_s.set_title("Shadow price")
+        ax_s.tick_params(axis="y", length=0)
+        _money_axis(ax_s, cur, axis="x")
+        ax_s.xaxis.set_major_locator(MaxNLocator(4))
+    return Chart(key="resources", title="Resources: utilisation and shadow prices",
+                 caption=("A shadow price is the profit one more unit of a resource would add, for a small change; "
+                          "a binding limit is used to the full. For a whole shift, re-solve (see the options)."),
+                 figure=fig)
+
+
+def sweep_chart(sweep: dict[str, Any], plan: Plan) -> Chart:
+    """Profit and shadow price against one resource's capacity, with the slate changes marked."""
+    pts = sorted(sweep.get("points", []), key=lambda p: p["capacity"])
+    name = sweep.get("resource", "resource")
+    unit = sweep.get("unit", "")
+    if not unit:
+        unit = next((r.unit for r in plan.resources if r.name == name), "")
+    caps = [p["capacity"] for p in pts]
+    prof = [p["profit"] for p in pts]
+    sps = [p.get("shadow_price") for p in pts]
+    cur = plan.currency
+    with rc_context(RC):
+        fig = Figure(figsize=(8.6, 5.4), layout="constrained")
+        ax_p, ax_s = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [1.5, 1]})
+        ax_p.plot(caps, prof, color=C["profit"], lw=2.2, marker="o", ms=3.5, label="optimal profit")
+        if any(s is not None for s in sps):
+            ax_s.step(caps, [s if s is not None else math.nan for s in sps], where="mid", color=C["sweep"], lw=2.0,
+                      marker="o", ms=3.0)
+        current = next((r.capacity for r in plan.resources if r.name == name), None)
+        for ax in (ax_p, ax_s):
+            if current is not None:
+                ax.axvline(current, color=C["accent"], lw=1.4)
+            for bp in sweep.get("breakpoints", []):
+                ax.axvline(bp["capacity"], color=C["cost"], lw=1.0, ls="--")
+        if current is not None:
+            ax_p.text(current, 0.98, f" today: {num(current)} {unit}", transform=ax_p.get_xaxis_transform(),
+                      color=C["ink"], fontsize=8.5, va="top")
+        for k, bp in enumerate(sweep.get("breakpoints", [])):
+            ax_s.text(bp["capacity"], 0.96 - 0.16 * (k % 4), f" {num(bp['capacity'])}: {bp.get('change', '')}",
+                      transform=ax_s.get_xaxis_transform(), fontsize=7.8, color=C["cost"], va="top")
+        ax_p.set_ylabel(f"optimal profit ({cur} per {plan.period})")
+        ax_s.set_ylabel(f"shadow price ({cur} per {unit or 'unit'})")
+        ax_s.set_xlabel(f"capacity of {name} ({unit or 'units'} per {plan.period})")
+        _money_axis(ax_p, cur)
+        _money_axis(ax_s, cur)
+        _thousands_axis(ax_s)
+        ax_p.set_title(f"Capacity sweep: {name}")
+    return Chart(key=f"sweep-{slug(name)}", title=f"Capacity sweep of {name}",
+                 caption=("Each point is a full re-solve at that capacity. Dashed lines: the slate of running "
+                          "products changes there. The solid line is today's capacity."),
+                 figure=fig, marks={"breakpoints": [bp["capacity"] for bp in sweep.get("breakpoints", [])]})
+
+
+def all_charts(plan: Plan, scenario, sweep: dict[str, Any] | None = None) -> list[Chart]:
+    """Every chart of a report, in page order: mix, resources, sweep (if any), then one per product."""
+    charts = [mix_chart(plan)]
+    if plan.resources:
+        charts.append(resources_chart(plan))
+    if sweep and sweep.get("points"):
+        charts.append(sweep_chart(sweep, plan))
+    by_name = {p.name: p for p in scenario.products}
+    charts += [product_chart(pp, by_name[pp.name], plan.currency, plan.period) for pp in plan.products]
+    return charts
+
+
+def render(chart: Chart, fmt: str, path=None, dpi: int = 150) -> bytes | None:
+    """Write the chart as 'png' or 'svg' to ``path`` (or return the bytes when ``path`` is None)."""
+    import io
+
+    with rc_context(RC):
+        buf = io.BytesIO() if path is None else None
+        chart.figure.savefig(path if path is not None else buf, format=fmt, dpi=dpi, metadata=_metadata(fmt))
+        # The first draw placed everything; keep that layout for the other format (same look, less time).
+        chart.figure.set_layout_engine("none")
+        return None if buf is None else buf.getvalue()
+
+
+def _metadata(fmt: str) -> dict:
+    # No creation date: the same plan gives byte-identical chart files.
+    return {"Date": None} if fmt == "svg" else {"Software": "planner"}
