@@ -99,11 +99,12 @@ def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str) -> C
     profit = revenue - cost
     marks: dict[str, Any] = {}
     with rc_context(RC):
-        fig = Figure(figsize=(7.6, 4.3), layout="constrained")
+        fig = Figure(figsize=(6.2, 5.4), layout="constrained")
         ax = fig.add_subplot()
-        ax.plot(D, revenue, color=C["revenue"], lw=2.2, label="revenue")
-        ax.plot(D, cost, color=C["cost"], lw=2.0, ls=(0, (6, 3)), label="total cost (fixed + variable)")
-        ax.plot(D, profit, color=C["profit"], lw=2.4, label="profit")
+        curves = [ax.plot(D, revenue, color=C["revenue"], lw=2.2, label="revenue")[0],
+                  ax.plot(D, cost, color=C["cost"], lw=2.0, ls=(0, (6, 3)), label="total cost")[0],
+                  ax.plot(D, profit, color=C["profit"], lw=2.4, label="profit")[0]]
+        marked = []
         ax.axhline(0, color=C["muted"], lw=0.9)
         if sp.max_volume is not None and sp.max_volume < xmax:
             ax.axvspan(sp.max_volume, xmax, color=C["off"], alpha=0.18, lw=0)
@@ -113,12 +114,13 @@ def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str) -> C
         # Far beyond the optimum the profit curve plunges; keep the view on the region that matters.
         ymin = float(min(0.0, max(profit.min(), -0.6 * ymax), -F, pp.profit))
 
-        def mark(gid, xs, ys, marker, color, size, label, texts):
+        def mark(gid, xs, ys, marker, color, size, label, texts, offset=(6, 7)):
             line, = ax.plot(xs, ys, ls="none", marker=marker, ms=size, color=color, mec=C["ink"], mew=0.8,
                             zorder=5, label=label)
             line.set_gid(gid)
+            marked.append(line)
             for x, y, t in zip(xs, ys, texts):
-                ax.annotate(t, (x, y), xytext=(6, 7), textcoords="offset points", fontsize=8, color=C["ink"],
+                ax.annotate(t, (x, y), xytext=offset, textcoords="offset points", fontsize=8, color=C["ink"],
                             zorder=6, bbox={"boxstyle": "round,pad=0.15", "fc": C["paper"], "ec": "none", "alpha": 0.8})
 
         be = [x for x in s.break_even if x is not None]
@@ -145,7 +147,8 @@ def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str) -> C
         else:
             marks["mix"] = (0.0, pp.profit)
             mark("mark-mix", [0.0], [pp.profit], "X", C["off"], 11,
-                 f"in the mix: shut down (saves the fixed cost {money(F, currency)})", ["shut down"])
+                 f"in the mix: shut down (saves the fixed cost {money(F, currency)})", ["shut down"],
+                 offset=(7, -15))
         ax.set_xlim(0, xmax)
         pad = 0.06 * (ymax - ymin or 1.0)
         ax.set_ylim(ymin - pad, ymax + 2.2 * pad)
@@ -154,7 +157,9 @@ def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str) -> C
         _money_axis(ax, currency)
         _thousands_axis(ax)
         ax.set_title(pp.name)
-        ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0, handlelength=2.2)
+        ax.add_artist(ax.legend(handles=curves, loc="upper right", handlelength=2.2, fontsize=8,
+                                facecolor=C["paper"], framealpha=0.85, frameon=True, edgecolor="none"))
+        fig.legend(handles=marked, loc="outside lower left", ncols=1, handlelength=1.6, fontsize=8.8)
     caption = (f"{pp.name}: price {money(a, currency, 2)} − {b:g} × volume per {unit}; variable cost "
                f"{money(v, currency, 2)} per {unit}; fixed cost {money(F, currency)} per {period} "
                "(avoided only by shutting the product down). Standalone values ignore shared limits.")
@@ -266,20 +271,24 @@ def sweep_chart(sweep: dict[str, Any], plan: Plan) -> Chart:
         ax_p, ax_s = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [1.5, 1]})
         ax_p.plot(caps, prof, color=C["profit"], lw=2.2, marker="o", ms=3.5, label="optimal profit")
         if any(s is not None for s in sps):
-            ax_s.step(caps, [s if s is not None else math.nan for s in sps], where="mid", color=C["sweep"], lw=2.0,
-                      marker="o", ms=3.0)
+            ax_s.plot(caps, [s if s is not None else math.nan for s in sps], color=C["sweep"], lw=2.0,
+                      marker="o", ms=3.5)
         current = next((r.capacity for r in plan.resources if r.name == name), None)
         for ax in (ax_p, ax_s):
             if current is not None:
                 ax.axvline(current, color=C["accent"], lw=1.4)
             for bp in sweep.get("breakpoints", []):
-                ax.axvline(bp["capacity"], color=C["cost"], lw=1.0, ls="--")
+                if bp.get("after") is not None:  # sampled: the change lies somewhere in this interval
+                    ax.axvspan(bp["after"], bp["capacity"], color=C["cost"], alpha=0.12, lw=0)
+                else:
+                    ax.axvline(bp["capacity"], color=C["cost"], lw=1.0, ls="--")
         if current is not None:
             ax_p.text(current, 0.98, f" today: {num(current)} {unit}", transform=ax_p.get_xaxis_transform(),
                       color=C["ink"], fontsize=8.5, va="top")
-        for k, bp in enumerate(sweep.get("breakpoints", [])):
-            ax_s.text(bp["capacity"], 0.96 - 0.16 * (k % 4), f" {num(bp['capacity'])}: {bp.get('change', '')}",
-                      transform=ax_s.get_xaxis_transform(), fontsize=7.8, color=C["cost"], va="top")
+        for bp in sweep.get("breakpoints", []):
+            ax_p.text(bp["capacity"] if bp.get("after") is None else 0.5 * (bp["after"] + bp["capacity"]), 0.03, f" {bp.get('change', '')} ", transform=ax_p.get_xaxis_transform(),
+                      rotation=90, fontsize=8, color=C["cost"], va="bottom", ha="center",
+                      bbox={"boxstyle": "square,pad=0.1", "fc": C["paper"], "ec": "none", "alpha": 0.85})
         ax_p.set_ylabel(f"optimal profit ({cur} per {plan.period})")
         ax_s.set_ylabel(f"shadow price ({cur} per {unit or 'unit'})")
         ax_s.set_xlabel(f"capacity of {name} ({unit or 'units'} per {plan.period})")
@@ -288,8 +297,9 @@ def sweep_chart(sweep: dict[str, Any], plan: Plan) -> Chart:
         _thousands_axis(ax_s)
         ax_p.set_title(f"Capacity sweep: {name}")
     return Chart(key=f"sweep-{slug(name)}", title=f"Capacity sweep of {name}",
-                 caption=("Each point is a full re-solve at that capacity. Dashed lines: the slate of running "
-                          "products changes there. The solid line is today's capacity."),
+                 caption=("Each point is a full re-solve at that capacity. Dashed lines (or shaded bands, where "
+                          "the points were only sampled): the slate of running products changes there. The solid "
+                          "line is today's capacity."),
                  figure=fig, marks={"breakpoints": [bp["capacity"] for bp in sweep.get("breakpoints", [])]})
 
 
@@ -301,8 +311,23 @@ def all_charts(plan: Plan, scenario, sweep: dict[str, Any] | None = None) -> lis
     if sweep and sweep.get("points"):
         charts.append(sweep_chart(sweep, plan))
     by_name = {p.name: p for p in scenario.products}
-    charts += [product_chart(pp, by_name[pp.name], plan.currency, plan.period) for pp in plan.products]
+    charts += [product_chart(pp, by_name[pp.name], plan.currency, plan.period) for pp in charted_products(plan)]
     return charts
+
+
+#: At most this many per-product charts in a report (a catalogue of thousands would bury the page).
+MAX_PRODUCT_CHARTS = 24
+
+
+def charted_products(plan: Plan) -> list[ProductPlan]:
+    """The products that get their own chart, in plan order: all of them, or the most profitable ones
+    (running first, then shut-down ones by standalone profit) up to :data:`MAX_PRODUCT_CHARTS`."""
+    if len(plan.products) <= MAX_PRODUCT_CHARTS:
+        return list(plan.products)
+    ranked = sorted(plan.products, key=lambda x: (not x.running, -(x.profit if x.running else
+                                                                    (x.standalone.max_profit or 0.0))))
+    keep = {id(x) for x in ranked[:MAX_PRODUCT_CHARTS]}
+    return [x for x in plan.products if id(x) in keep]
 
 
 def render(chart: Chart, fmt: str, path=None, dpi: int = 150) -> bytes | None:

@@ -49,8 +49,8 @@ class ReportContext:
         for pkg in ("planner", "matplotlib", "openpyxl"):
             try:
                 out.setdefault(pkg, version(pkg))
-            except PackageNotFoundError:
-                out.setdefault(pkg, "not installed")
+            except PackageNotFoundError:  # e.g. run from a source tree that was never installed
+                continue
         return out
 
 

@@ -38,7 +38,8 @@ def _figure(chart: Chart) -> str:
 
 def _card(key: str, value: str, note: str = "", warn: bool = False) -> str:
     cls = "card warn" if warn else "card"
-    return (f'<div class="{cls}"><div class="k">{escape(key)}</div><div class="v">{escape(value)}</div>'
+    vcls = "v long" if len(value) > 16 else "v"
+    return (f'<div class="{cls}"><div class="k">{escape(key)}</div><div class="{vcls}">{escape(value)}</div>'
             f'<div class="n">{escape(note)}</div></div>')
 
 
@@ -114,28 +115,39 @@ def _changes_text(v: Any) -> str:
 def _products(ctx: ReportContext) -> str:
     p, c = ctx.plan, ctx.currency
     head = [("product", False), ("status", False), ("volume", True), ("price", True), ("revenue", True),
-            ("variable cost", True), ("contribution", True), ("fixed cost", True), ("profit", True),
-            ("best alone", True), ("break-even volumes", True)]
+            ("variable cost", True), ("contribution", True), ("fixed cost", True), ("profit", True)]
     rows = []
     for x in p.products:
-        s = x.standalone
         tag = ('<span class="tag on">must run</span>' if x.must_run else '<span class="tag on">runs</span>') \
             if x.running else '<span class="tag off">shut down</span>'
-        be = " – ".join(num(v) if v is not None else "∞" for v in s.break_even) if s.break_even else "never"
         rows.append(("on" if x.running else "off", [
             escape(x.name), tag, escape(f"{num(x.volume)} {x.unit}"),
             escape(money(x.price, c, 2)) if x.volume > 0 else "—",
             escape(money(x.revenue, c)), escape(money(x.variable_cost, c)), escape(money(x.contribution, c)),
-            escape(money(x.fixed_cost, c)), f"<b>{escape(money(x.profit, c))}</b>",
-            escape(num(s.optimal_volume)), escape(be)]))
+            escape(money(x.fixed_cost, c)), f"<b>{escape(money(x.profit, c))}</b>"]))
     tot = lambda attr: sum(getattr(x, attr) for x in p.products)  # noqa: E731
     rows.append(("total", ["<b>all products</b>", "", "", "", escape(money(tot("revenue"), c)),
                            escape(money(tot("variable_cost"), c)), escape(money(tot("contribution"), c)),
-                           escape(money(tot("fixed_cost"), c)), f"<b>{escape(money(tot('profit'), c))}</b>", "", ""]))
-    note = (f'<p class="note">Amounts per {escape(p.period)} in {escape(c)}. "Best alone" and the break-even volumes '
-            "are each product's standalone economics, ignoring the shared limits. Plant-wide fixed cost "
-            f"{escape(money(p.plant_fixed_cost, c))}; total profit {escape(money(p.profit, c))}.</p>")
-    return f'<section id="products"><h2>Products</h2>{_table(head, rows)}{note}</section>'
+                           escape(money(tot("fixed_cost"), c)), f"<b>{escape(money(tot('profit'), c))}</b>"]))
+    note = (f'<p class="note">Amounts per {escape(p.period)} in {escape(c)}. Contribution = revenue − variable cost; '
+            f"profit = contribution − the product's fixed cost. Less the plant-wide fixed cost "
+            f"{escape(money(p.plant_fixed_cost, c))}: total profit {escape(money(p.profit, c))}.</p>")
+    shead = [("product", False), ("best volume", True), ("price there", True), ("best profit", True),
+             ("max-revenue volume", True), ("break-even volumes", True), ("volume in the mix", True)]
+    srows = []
+    for x in p.products:
+        s = x.standalone
+        be = " – ".join(num(v) if v is not None else "∞" for v in s.break_even) if s.break_even else "never breaks even"
+        srows.append(("on" if x.running else "off", [
+            escape(x.name), escape(num(s.optimal_volume)),
+            escape(money(s.optimal_price, c, 2)) if s.optimal_price is not None else "—",
+            escape(money(s.max_profit, c)) if s.max_profit is not None else "—",
+            escape(num(s.max_revenue_volume)), escape(be),
+            escape(num(x.volume)) if x.running else "shut down"]))
+    snote = ('<p class="note">Each product on its own, as if it had the plant to itself (no shared limits; its cap '
+             "applies). The mix gives a product less than its best volume when it competes for a binding limit.</p>")
+    return (f'<section id="products"><h2>Products</h2>{_table(head, rows)}{note}'
+            f'<h2>Standalone economics</h2>{_table(shead, srows)}{snote}</section>')
 
 
 def _resources(ctx: ReportContext) -> str:
@@ -211,10 +223,20 @@ def render_html(ctx: ReportContext, charts: list[Chart]) -> str:
     top = "".join(_figure(by_key[k]) for k in ("mix", "resources") if k in by_key)
     sweep = [ch for ch in charts if ch.key.startswith("sweep-")]
     product_figs = "".join(_figure(ch) for ch in charts if ch.key.startswith("product-"))
+    n_charted = sum(1 for ch in charts if ch.key.startswith("product-"))
+    omitted = (f" Charts for the {n_charted} most profitable of {len(p.products)} products; the workbook lists "
+               "every product." if n_charted < len(p.products) else "")
     sweep_html = ""
     if sweep:
         bps = (ctx.sweep or {}).get("breakpoints", [])
-        lst = "".join(f"<li>at {escape(num(b['capacity']))}: {escape(str(b.get('change', '')))}</li>" for b in bps)
+        unit = (ctx.sweep or {}).get("unit", "")
+
+        def where(b):
+            if b.get("after") is not None:
+                return f"between {num(b['after'])} and {num(b['capacity'])} {unit}".rstrip()
+            return f"at {num(b['capacity'])} {unit}".rstrip()
+
+        lst = "".join(f"<li>{escape(where(b))}: {escape(str(b.get('change', '')))}</li>" for b in bps)
         sweep_html = (f'<section id="sweep"><h2>Capacity sweep</h2>{_figure(sweep[0])}'
                       + (f'<ul class="points">{lst}</ul>' if lst else '<p class="note">No slate change in the range swept.</p>')
                       + "</section>")
@@ -227,7 +249,8 @@ def render_html(ctx: ReportContext, charts: list[Chart]) -> str:
             f"{_summary(ctx)}"
             f'<section id="charts"><h2>The plan at a glance</h2>{top}</section>'
             f"{_products(ctx)}{_resources(ctx)}{_options(ctx)}{sweep_html}"
-            f'<section id="economics"><h2>Each product on its own</h2>'
-            f'<p class="note">Revenue, total cost and profit over the whole demand range, with the volume the mix '
-            f'gives each product.</p><div class="grid2">{product_figs}</div></section>'
+            f'<section id="economics"><h2>Each product: revenue, cost and profit against volume</h2>'
+            f'<p class="note">Over the whole demand range (up to the volume at which the price reaches zero), with '
+            f"the volume the mix gives each product.{omitted}</p>"
+            f'<div class="grid2">{product_figs}</div></section>'
             f"{_footer(ctx)}</main></body></html>\n")

@@ -82,7 +82,8 @@ def capacity_sweep(scenario: Scenario, resource: str, capacities: list[float] | 
     for prev, cur in zip(points, points[1:]):
         change = slate_change(frozenset(prev["running"]), frozenset(cur["running"]))
         if change:
-            breakpoints.append({"capacity": cur["capacity"], "change": change, "sampled": True})
+            breakpoints.append({"capacity": cur["capacity"], "change": change, "sampled": True,
+                                "after": prev["capacity"]})
     return {"resource": resource, "unit": res.unit, "points": points, "breakpoints": breakpoints,
             "skipped": skipped, "method": "sampled re-solves"}
 

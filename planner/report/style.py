@@ -68,12 +68,14 @@ h2 {{ font-size:18px; margin:34px 0 10px; padding-bottom:4px; border-bottom:2px 
 .card.warn {{ border-left-color:var(--accent); }}
 .card .k {{ color:var(--muted); font-size:12px; text-transform:uppercase; letter-spacing:.04em; }}
 .card .v {{ font-size:22px; font-weight:bold; margin-top:2px; }}
+.card .v.long {{ font-size:17px; line-height:1.25; }}
 .card .n {{ font-size:13px; color:var(--muted); }}
 ul.points {{ margin:14px 0 0; padding-left:20px; }}
 ul.points li {{ margin:3px 0; }}
 table {{ border-collapse:collapse; width:100%; background:var(--panel); font-size:13.5px; }}
 th, td {{ padding:5px 9px; border-bottom:1px solid var(--grid); }}
 th {{ text-align:left; background:#f1ebdf; font-weight:600; }}
+td:first-child {{ white-space:nowrap; }}
 td.num, th.num {{ text-align:right; font-variant-numeric:tabular-nums; white-space:nowrap; }}
 tr.off td {{ color:var(--muted); }}
 tr.bind td:first-child {{ font-weight:bold; }}
