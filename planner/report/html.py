@@ -23,6 +23,7 @@ def inline_svg(chart: Chart) -> str:
     """The chart as an <svg> element whose ids are prefixed with the chart's key (unique on the page)."""
     text = chart.svg().decode("utf-8")
     text = text[text.index("<svg"):]
+    text = re.sub(r"<metadata>.*?</metadata>", "", text, count=1, flags=re.S)  # RDF block with outside URIs
     prefix = chart.key + "-"
     text = re.sub(r'\bid="([^"]+)"', lambda m: f'id="{prefix}{m.group(1)}"', text)
     text = re.sub(r'(xlink:href|href)="#([^"]+)"', lambda m: f'{m.group(1)}="#{prefix}{m.group(2)}"', text)
