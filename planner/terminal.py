@@ -12,9 +12,11 @@ from .plan import LABOUR_NOTE, Plan
 
 
 def money(x: float, currency: str = "$", decimals: int = 0) -> str:
-    """'$12,345' style, with a minus sign before the currency for losses."""
+    """'$12,345' style, with a minus sign before the currency for losses; a currency ending in a letter or
+    digit ('CHF', '$000') is parted from the amount by a space: 'CHF 12,345'."""
     sign = "-" if x < 0 and round(abs(x), decimals) != 0 else ""
-    return f"{sign}{currency}{abs(x):,.{decimals}f}"
+    sep = " " if currency and currency[-1].isalnum() else ""
+    return f"{sign}{currency}{sep}{abs(x):,.{decimals}f}"
 
 
 def qty(x: float | None, decimals: int = 1) -> str:
@@ -27,7 +29,8 @@ def qty(x: float | None, decimals: int = 1) -> str:
 
 
 def price(x: float, currency: str) -> str:
-    return f"{currency}{x:,.2f}"
+    """A unit price with cents: '€506.42'."""
+    return money(x, currency, 2)
 
 
 def status_line(p: Plan) -> str:
@@ -101,7 +104,7 @@ def resources_table(p: Plan, console: Console | None = None) -> Table:
         for r in p.resources:
             unit = f" {escape(r.unit)}" if r.unit else ""
             mark = " [bold red]◆[/]" if r.binding else ""
-            sp = f"{c}{r.shadow_price:,.2f}/{escape(r.unit or 'unit')}" if r.shadow_price > 0 else "0"
+            sp = f"{money(r.shadow_price, c, 2)}/{escape(r.unit or 'unit')}" if r.shadow_price > 0 else "0"
             rng = getattr(r, "shadow_price_range", None)
             held = (f"{qty(rng[0])}–{qty(rng[1]) if rng[1] is not None else '∞'}" if rng else "—")
             cells = {"resource": escape(r.name) + mark, "used": qty(r.used) + unit, "capacity": qty(r.capacity) + unit,
@@ -150,7 +153,7 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True)
         if binding:
             top = binding[0]
             con.print(f"Bottleneck: [bold]{escape(top.name)}[/] — one more {escape(top.unit or 'unit')} is worth "
-                      f"{p.currency}{top.shadow_price:,.2f} of profit (for a small change; re-solve for a shift).")
+                      f"{money(top.shadow_price, p.currency, 2)} of profit (for a small change; re-solve for a shift).")
         con.print()
     if standalone:
         con.print(standalone_table(p, con))

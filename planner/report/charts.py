@@ -32,7 +32,7 @@ matplotlib.use("Agg")  # never open a window, whatever the environment says
 import numpy as np  # noqa: E402
 from matplotlib import rc_context  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
-from matplotlib.ticker import FuncFormatter, MaxNLocator  # noqa: E402
+from matplotlib.ticker import Formatter, MaxNLocator  # noqa: E402
 
 from ..plan import Plan, ProductPlan  # noqa: E402
 from ..schema import Product  # noqa: E402
@@ -59,22 +59,39 @@ class Chart:
         return self._svg
 
 
-def _money_axis(ax, currency: str, axis: str = "y") -> None:
-    def f(x, _pos):
-        ax_ = abs(x)
-        if ax_ >= 1e6:
-            text = f"{ax_ / 1e6:,.1f}M"
-        elif ax_ >= 1e4:
-            text = f"{ax_ / 1e3:,.0f}k"
-        else:
-            text = f"{ax_:,.0f}"
-        return f"{'-' if x < 0 else ''}{currency}{text}"
+class _Ticks(Formatter):
+    """Tick labels with thousands separators, as many decimals as the tick spacing needs, an optional
+    currency prefix, and k / M for large amounts."""
 
-    (ax.yaxis if axis == "y" else ax.xaxis).set_major_formatter(FuncFormatter(f))
+    def __init__(self, currency: str = "") -> None:
+        self.currency = currency
+        self.decimals = 0
+        self.scale = (1.0, "")
+
+    def set_locs(self, locs) -> None:
+        super().set_locs(locs)
+        locs = sorted(float(x) for x in locs)
+        big = max((abs(x) for x in locs), default=0.0)
+        self.scale = (1e6, "M") if self.currency and big >= 1e6 else (1e3, "k") if self.currency and big >= 1e4 \
+            else (1.0, "")
+        step = min((b - a for a, b in zip(locs, locs[1:]) if b > a), default=1.0) / self.scale[0]
+        self.decimals = max(0, min(6, -math.floor(math.log10(step)))) if step > 0 else 0
+
+    def __call__(self, x, pos=None) -> str:
+        div, suffix = self.scale
+        text = f"{abs(x) / div:,.{self.decimals}f}{suffix}"
+        sign = "-" if x < 0 and text.strip("0.,kM") else ""
+        cur = self.currency
+        sep = " " if cur and cur[-1].isalnum() else ""
+        return f"{sign}{cur}{sep}{text}" if cur else f"{sign}{text}"
+
+
+def _money_axis(ax, currency: str, axis: str = "y") -> None:
+    (ax.yaxis if axis == "y" else ax.xaxis).set_major_formatter(_Ticks(currency))
 
 
 def _thousands_axis(ax, axis: str = "x") -> None:
-    (ax.xaxis if axis == "x" else ax.yaxis).set_major_formatter(FuncFormatter(lambda x, _p: f"{x:,.0f}"))
+    (ax.xaxis if axis == "x" else ax.yaxis).set_major_formatter(_Ticks())
 
 
 def _volume_range(sp: Product, pp: ProductPlan) -> float:

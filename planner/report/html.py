@@ -83,8 +83,8 @@ def _summary(ctx: ReportContext) -> str:
                       f"({escape(money(top.profit, c))} on {escape(num(top.volume))} {escape(top.unit)}).")
     if stopped:
         names = ", ".join(f"<b>{escape(x.name)}</b>" for x in stopped)
-        points.append(f"Shut down {names}: the plan is better without them — the capacity they would use "
-                      "earns more in other products than they would make after their fixed costs.")
+        points.append(f"Shut down {names}: the plan makes more without them — they would not cover their "
+                      "costs here, or the capacity they would use earns more in other products.")
     if binding:
         r = binding[0]
         points.append(f"The bottleneck is <b>{escape(r.name)}</b>: one more {escape(r.unit or 'unit')} is worth "
@@ -131,8 +131,9 @@ def _products(ctx: ReportContext) -> str:
                            escape(money(tot("variable_cost"), c)), escape(money(tot("contribution"), c)),
                            escape(money(tot("fixed_cost"), c)), f"<b>{escape(money(tot('profit'), c))}</b>"]))
     note = (f'<p class="note">Amounts per {escape(p.period)} in {escape(c)}. Contribution = revenue − variable cost; '
-            f"profit = contribution − the product's fixed cost. Less the plant-wide fixed cost "
-            f"{escape(money(p.plant_fixed_cost, c))}: total profit {escape(money(p.profit, c))}.</p>")
+            "profit = contribution − the product's fixed cost."
+            + (f" Less the plant-wide fixed cost {escape(money(p.plant_fixed_cost, c))}: total profit "
+               f"{escape(money(p.profit, c))}." if p.plant_fixed_cost else "") + "</p>")
     shead = [("product", False), ("best volume", True), ("price there", True), ("best profit", True),
              ("max-revenue volume", True), ("break-even volumes", True), ("volume in the mix", True)]
     srows = []
@@ -153,6 +154,8 @@ def _products(ctx: ReportContext) -> str:
 
 def _resources(ctx: ReportContext) -> str:
     p, c = ctx.plan, ctx.currency
+    if not p.resources:
+        return '<section id="resources"><h2>Resources</h2><p class="note">The scenario has no shared limits.</p></section>'
     has_range = any(getattr(r, "shadow_price_range", None) for r in p.resources)
     head = [("resource", False), ("used", True), ("capacity", True), ("utilisation", True), ("shadow price", True)]
     if has_range:
