@@ -51,6 +51,10 @@ def test_report_writes_every_file(report_dir, demo_path):
             assert f.is_file() and f.stat().st_size > 5000, f
     assert (report_dir / "charts" / "mix.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert (report_dir / "report.html").stat().st_size > 50_000
+    sweep = json.loads((report_dir / "sweep.json").read_text())
+    assert sweep["resource"] == SWEPT and len(sweep["points"]) >= 3
+    for pt in sweep["points"]:
+        assert set(pt["volumes"]) == {p["name"] for p in plan["products"]}
 
 
 def same(x):
@@ -126,10 +130,14 @@ def test_html_is_self_contained_with_summary_and_footer(report_dir, demo_path):
     urls = set(re.findall(r"https?://[^\s\"'<>)]+", html))
     assert urls <= {"http://www.w3.org/2000/svg", "http://www.w3.org/1999/xlink"}, urls  # SVG namespaces only
     # Summary at the top: total profit, gap, running products, binding limit, best option.
-    summary = html[html.index('id="summary"'):html.index('id="charts"')]
+    summary = html[html.index('id="summary"'):html.index('id="products"')]
     assert f"€{plan['profit']:,.0f}" in summary
     assert "Certified gap" in summary and "5 of 7" in summary
     assert "finishing booth" in summary and "Saturday shift in finishing" in summary
+    # Summary first, then the tables, then the charts, then the footer (the issue's layout).
+    order = [html.index(x) for x in ('id="summary"', 'id="products"', 'id="resources"', 'id="options"',
+                                     'id="charts"', 'id="economics"', "<footer>")]
+    assert order == sorted(order)
     # Every chart inline, ids unique on the page.
     assert html.count('<figure class="chart"') == 3 + len(plan["products"])
     ids = re.findall(r'\bid="([^"]+)"', html)
@@ -282,6 +290,15 @@ def test_terminal_tables_fit_80_columns_without_wrapping_names(demo_plan):
         assert any(line.startswith(p.name + " ") for line in lines), p.name
     assert "€429,358" in text or f"€{demo_plan.profit:,.0f}" in text  # thousands separators and currency
     assert "€95.52/h" in text
+
+
+def test_money_parts_a_currency_code_from_the_amount():
+    from planner.terminal import money
+
+    assert money(1234567.4, "€") == "€1,234,567"
+    assert money(-988.2, "CHF") == "-CHF 988"
+    assert money(36, "$000") == "$000 36"
+    assert money(95.523, "€", 2) == "€95.52"
 
 
 def test_terminal_drops_optional_columns_when_narrow(demo_plan):

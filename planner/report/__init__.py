@@ -23,9 +23,10 @@ __all__ = ["write_report", "ReportContext", "make_context"]
 def write_report(plan: Plan, scenario: Scenario, out_dir: str | Path, source: str | Path = "",
                  sweep: dict[str, Any] | None = None, context: ReportContext | None = None,
                  **solve: Any) -> dict[str, Path]:
-    """Write report.html, plan.xlsx, plan.json and every chart as PNG and SVG into ``out_dir``.
+    """Write report.html, plan.xlsx, plan.json (sweep.json with a sweep) and every chart as PNG and SVG
+    into ``out_dir``.
 
-    Returns the written paths by name ('html', 'xlsx', 'json', 'chart:<key>.png', 'chart:<key>.svg').
+    Returns the written paths by name ('html', 'xlsx', 'json', 'sweep', 'chart:<key>.png', 'chart:<key>.svg').
     ``solve`` options (rel_gap, time_limit, solver) are used for any re-solve the report needs.
     """
     from ..output import write_atomic, write_text_atomic
@@ -45,6 +46,10 @@ def write_report(plan: Plan, scenario: Scenario, out_dir: str | Path, source: st
     paths["html"] = write_text_atomic(out / "report.html", render_html(ctx, charts))
     paths["xlsx"] = write_workbook(ctx, out / "plan.xlsx")
     paths["json"] = write_text_atomic(out / "plan.json", plan.to_json())
+    if ctx.sweep:
+        import json
+
+        paths["sweep"] = write_text_atomic(out / "sweep.json", json.dumps(ctx.sweep, indent=2, allow_nan=False))
     for ch in charts:
         ch.figure.clear()
     return paths

@@ -184,12 +184,17 @@ def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str) -> C
                  caption=caption, figure=fig, marks=marks)
 
 
+#: At most this many products (bars) in the mix chart; larger catalogues show the most profitable.
+MAX_MIX_BARS = 30
+
+
 def mix_chart(plan: Plan) -> Chart:
     """Each product's volume and profit in the plan; shut-down products marked as such."""
-    prods = list(reversed(plan.products))  # first product at the top
+    shown = _top_products(plan, MAX_MIX_BARS)
+    prods = list(reversed(shown))  # first product at the top
     names = [p.name for p in prods]
     y = np.arange(len(prods))
-    units = {p.unit for p in plan.products}
+    units = {p.unit for p in shown}
     vol_label = f"volume ({units.pop()} per {plan.period})" if len(units) == 1 else f"volume (each product's unit, per {plan.period})"
     with rc_context({**RC, "axes.grid.axis": "x"}):
         fig = Figure(figsize=(9.0, 0.5 * len(prods) + 1.6), layout="constrained")
@@ -224,7 +229,11 @@ def mix_chart(plan: Plan) -> Chart:
         ax_p.set_title("Profit by product")
         ax_p.tick_params(axis="y", length=0)
     return Chart(key="mix", title="The mix: volume and profit by product",
-                 caption=(f"Bars for running products; shut-down products make nothing and pay no fixed cost. "
+                 caption=(("" if len(shown) == len(plan.products) else
+                           f"The {len(shown)} most profitable of {len(plan.products)} products "
+                           f"({sum(not p.running for p in plan.products)} shut down in all); the tables list every "
+                           "product. ")
+                          + "Bars for running products; shut-down products make nothing and pay no fixed cost. "
                           f"Total profit {money(plan.profit, plan.currency)} after the plant-wide fixed cost "
                           f"{money(plan.plant_fixed_cost, plan.currency)}."),
                  figure=fig)
@@ -303,7 +312,8 @@ def sweep_chart(sweep: dict[str, Any], plan: Plan) -> Chart:
             ax_p.text(current, 0.98, f" today: {num(current)} {unit}", transform=ax_p.get_xaxis_transform(),
                       color=C["ink"], fontsize=8.5, va="top")
         for bp in sweep.get("breakpoints", []):
-            ax_p.text(bp["capacity"] if bp.get("after") is None else 0.5 * (bp["after"] + bp["capacity"]), 0.03, f" {bp.get('change', '')} ", transform=ax_p.get_xaxis_transform(),
+            x = bp["capacity"] if bp.get("after") is None else 0.5 * (bp["after"] + bp["capacity"])
+            ax_p.text(x, 0.03, f" {_short(str(bp.get('change', '')))} ", transform=ax_p.get_xaxis_transform(),
                       rotation=90, fontsize=8, color=C["cost"], va="bottom", ha="center",
                       bbox={"boxstyle": "square,pad=0.1", "fc": C["paper"], "ec": "none", "alpha": 0.85})
         ax_p.set_ylabel(f"optimal profit ({cur} per {plan.period})")
@@ -318,6 +328,11 @@ def sweep_chart(sweep: dict[str, Any], plan: Plan) -> Chart:
                           "the points were only sampled): the slate of running products changes there. The solid "
                           "line is today's capacity."),
                  figure=fig, marks={"breakpoints": [bp["capacity"] for bp in sweep.get("breakpoints", [])]})
+
+
+def _short(text: str, limit: int = 38) -> str:
+    """A label cut to ``limit`` characters with an ellipsis (the full text is in the tables)."""
+    return text if len(text) <= limit else text[: limit - 1].rstrip(" ,;") + "…"
 
 
 def all_charts(plan: Plan, scenario, sweep: dict[str, Any] | None = None) -> list[Chart]:
@@ -339,11 +354,17 @@ MAX_PRODUCT_CHARTS = 24
 def charted_products(plan: Plan) -> list[ProductPlan]:
     """The products that get their own chart, in plan order: all of them, or the most profitable ones
     (running first, then shut-down ones by standalone profit) up to :data:`MAX_PRODUCT_CHARTS`."""
-    if len(plan.products) <= MAX_PRODUCT_CHARTS:
+    return _top_products(plan, MAX_PRODUCT_CHARTS)
+
+
+def _top_products(plan: Plan, limit: int) -> list[ProductPlan]:
+    """All products if there are at most ``limit``, else the most profitable ones (running first, then
+    shut-down ones by standalone profit), in plan order."""
+    if len(plan.products) <= limit:
         return list(plan.products)
     ranked = sorted(plan.products, key=lambda x: (not x.running, -(x.profit if x.running else
                                                                     (x.standalone.max_profit or 0.0))))
-    keep = {id(x) for x in ranked[:MAX_PRODUCT_CHARTS]}
+    keep = {id(x) for x in ranked[:limit]}
     return [x for x in plan.products if id(x) in keep]
 
 

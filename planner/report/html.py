@@ -1,9 +1,9 @@
 """The HTML report: one self-contained page (inline CSS and SVG, no scripts, no outside links).
 
 Layout: the answer first (summary cards and a few plain sentences), then the
-mix and resource charts, the tables, the capacity options and sweep, one chart
-per product, and a footer with what is needed to reproduce the plan (scenario
-hash, solver versions, settings).
+tables (products, standalone economics, resources, capacity options), then the
+charts (mix, resources, capacity sweep, one per product), and a footer with
+what is needed to reproduce the plan (scenario hash, solver versions, settings).
 """
 
 from __future__ import annotations
@@ -251,8 +251,9 @@ def render_html(ctx: ReportContext, charts: list[Chart]) -> str:
             f"<title>{escape(p.scenario)} — plan</title><style>{CSS}</style></head><body><main>"
             f"<h1>{escape(p.scenario)}</h1><p class=\"sub\">{escape(sub)}</p>"
             f"{_summary(ctx)}"
-            f'<section id="charts"><h2>The plan at a glance</h2>{top}</section>'
-            f"{_products(ctx)}{_resources(ctx)}{_options(ctx)}{sweep_html}"
+            f"{_products(ctx)}{_resources(ctx)}{_options(ctx)}"
+            f'<section id="charts"><h2>The plan in charts</h2>{top}</section>'
+            f"{sweep_html}"
             f'<section id="economics"><h2>Each product: revenue, cost and profit against volume</h2>'
             f'<p class="note">Over the whole demand range (up to the volume at which the price reaches zero), with '
             f"the volume the mix gives each product.{omitted}</p>"

@@ -28,6 +28,7 @@ PCT = "0.0%"
 
 def _money_fmt(currency: str, decimals: int = 0) -> str:
     cur = currency.replace('"', "")
+    cur += " " if cur and cur[-1].isalnum() else ""  # 'CHF 1,234', as in the terminal and the page
     return f'"{cur}"#,##0{"." + "0" * decimals if decimals else ""};-"{cur}"#,##0{"." + "0" * decimals if decimals else ""}'
 
 
