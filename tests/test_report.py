@@ -111,13 +111,18 @@ def test_workbook_options_and_sweep(report_dir):
     wb = openpyxl.load_workbook(report_dir / "plan.xlsx")
     opts = {r[0].value: [c.value for c in r] for r in wb["Options"].iter_rows(min_row=2)}
     assert set(opts) == {"Saturday shift in finishing", "CNC overtime", "premium board"}
-    for name, (_, _, cost, with_, gain, net, *_rest) in opts.items():
+    for name, (_, _, _share, cost, with_, gain, net, *_rest) in opts.items():
         assert net == pytest.approx(gain - cost, abs=1e-6), name
     plan = json.loads((report_dir / "plan.json").read_text())
     sweep = [[c.value for c in r] for r in wb["Sweep"].iter_rows(min_row=2)]
     today = next(r["capacity"] for r in plan["resources"] if r["name"] == SWEPT)
-    at_today = [r for r in sweep if r[0] == today]
-    assert at_today and at_today[0][1] == same(plan["profit"])  # the sweep passes through the plan itself
+    for row in sweep:
+        if row[0] == pytest.approx(today, rel=1e-12):  # the sweep passes through the plan itself
+            assert row[1] == pytest.approx(plan["profit"], rel=1e-6)
+    # More of a limit never lowers the optimal profit (a relaxation: common practice in sensitivity analysis).
+    profits = [r[1] for r in sorted(sweep)]
+    assert all(b >= a - 1e-6 * abs(a) for a, b in zip(profits, profits[1:]))
+    assert len(sweep) >= 3
 
 
 def test_html_is_self_contained_with_summary_and_footer(report_dir, demo_path):
@@ -271,7 +276,7 @@ def test_options_valued_by_resolving_match_hand_calculation(tmp_path):
     assert (shift["profit_with"], shift["gain"], shift["net_gain"]) == \
         (pytest.approx(1750.0, abs=1e-6), pytest.approx(150.0, abs=1e-6), pytest.approx(50.0, abs=1e-6))
     assert not shift["approximate"]
-    assert overtime["fraction_used"] == 0.25 and overtime["adds"] == {"press": 10.0}
+    assert overtime["used"] == 0.25 and overtime["adds"] == {"press": 40.0} and overtime["kind"] == "part"
     assert (overtime["cost"], overtime["net_gain"]) == (pytest.approx(50.0), pytest.approx(100.0, abs=1e-6))
     assert overtime["approximate"]
 

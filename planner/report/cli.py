@@ -50,7 +50,7 @@ def register(main: click.Group) -> None:
         from ..api import plan
         from ..loading import load_scenario
         from . import make_context, write_report
-        from .replan import capacity_sweep
+        from .replan import sweep_for_report
 
         s, warnings = load_scenario(scenario)
         solve = {"rel_gap": rel_gap, "time_limit": time_limit, "solver": solver}
@@ -62,7 +62,7 @@ def register(main: click.Group) -> None:
         elif sweep_resource is not None:
             if not quiet:
                 console.print(f"[dim]sweeping {sweep_resource} at {sweep_steps} capacities ...[/]")
-            sweep = capacity_sweep(s, sweep_resource, steps=sweep_steps, base=p, **solve)
+            sweep = sweep_for_report(s, sweep_resource, steps=sweep_steps, base=p, **solve)
         if not quiet and s.options and not no_options and not p.extras.get("options"):
             console.print(f"[dim]valuing {len(s.options)} capacity options by re-solving ...[/]")
         ctx = make_context(p, s, source=scenario, sweep=sweep, value_options=not no_options, **solve)

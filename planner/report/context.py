@@ -68,7 +68,14 @@ def file_sha256(path: str | Path) -> str:
 
 def make_context(plan: Plan, scenario: Scenario, source: str | Path = "", sweep: dict[str, Any] | None = None,
                  value_options: bool = True, generated: datetime | None = None, **solve: Any) -> ReportContext:
-    """Gather a report's inputs; values the scenario's options by re-solving when the plan has none."""
+    """Gather a report's inputs; values the scenario's options by re-solving when the plan has none.
+
+    Where the capacity analysis (``planner.capacity``) is installed and the plan has not been through it,
+    it is run first (shadow-price ranges and exact option values); otherwise options are valued by
+    :func:`replan.value_options`.
+    """
+    if value_options and "options" not in plan.extras:
+        _capacity_analysis(plan, scenario)
     options = plan.extras.get("options")
     origin = "capacity analysis" if options else ""
     if not options and scenario.options and value_options:
@@ -81,3 +88,13 @@ def make_context(plan: Plan, scenario: Scenario, source: str | Path = "", sweep:
     if generated is not None:
         ctx.generated = generated
     return ctx
+
+
+def _capacity_analysis(plan: Plan, scenario: Scenario) -> bool:
+    """Run the capacity analysis on ``plan`` if that package is present; False where it is not."""
+    try:
+        from ..capacity.analysis import add_capacity_analysis
+    except ImportError:
+        return False
+    add_capacity_analysis(plan, scenario)
+    return True

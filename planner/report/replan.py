@@ -8,7 +8,9 @@ plan), so their numbers are plans' numbers, never a shortcut:
   capacity where the set of running products differs (the capacity analysis,
   where present, bisects to the exact point instead);
 - :func:`value_options` — each capacity option on its own: profit with it,
-  gain, net gain after its cost.  An all-or-nothing option is exact; an option
+  gain, net gain after its cost (keys as the capacity analysis writes them:
+  name, kind 'whole' | 'part', adds at full scale, used 0..1, cost,
+  profit_with, gain, net_gain, slate_changes, slate_change).  An all-or-nothing option is exact; an option
   usable in part is tried at quarter steps of its amount and the best step is
   kept (marked ``approximate``); one that loses money at every step is shown
   at its full amount.
@@ -88,6 +90,23 @@ def capacity_sweep(scenario: Scenario, resource: str, capacities: list[float] | 
             "skipped": skipped, "method": "sampled re-solves"}
 
 
+def sweep_for_report(scenario: Scenario, resource: str, steps: int = 11, base: Plan | None = None,
+                     **solve: Any) -> dict[str, Any]:
+    """A sweep of ``resource`` from 50 % to 150 % of today's capacity: the capacity analysis's exact sweep
+    (``planner.capacity.sweep.run_sweep``) where that package is installed, else :func:`capacity_sweep`."""
+    try:
+        from ..capacity.sweep import run_sweep
+    except ImportError:
+        return capacity_sweep(scenario, resource, steps=steps, base=base, **solve)
+    try:
+        today = scenario.resource(resource).capacity
+    except KeyError:
+        names = ", ".join(r.name for r in scenario.resources) or "none"
+        raise _unknown_resource(resource, names) from None
+    top = 1.5 * today if today > 0 else 1.0
+    return run_sweep(scenario, resource, 0.5 * today, top, steps).to_dict()
+
+
 def _unknown_resource(name: str, names: str):
     from ..errors import Problem
 
@@ -116,9 +135,11 @@ def value_options(scenario: Scenario, base: Plan, **solve: Any) -> list[dict[str
             except InfeasibleError:  # pragma: no cover - more capacity never makes a plan infeasible
                 continue
             gain = p.profit - base.profit
-            row = {"name": opt.name, "adds": extra, "cost": cost, "profit_with": p.profit, "gain": gain,
-                   "net_gain": gain - cost, "slate_changes": slate_change(before, running_set(p)),
-                   "fraction_used": frac, "approximate": len(trials) > 1}
+            change = slate_change(before, running_set(p))
+            row = {"name": opt.name, "kind": "whole" if opt.adds else "part",
+                   "adds": dict(opt.adds or opt.adds_up_to or {}), "used": frac, "cost": cost,
+                   "profit_with": p.profit, "gain": gain, "net_gain": gain - cost,
+                   "slate_changes": bool(change), "slate_change": change, "approximate": len(trials) > 1}
             rows.append(row)
         if rows:
             best = max(rows, key=lambda r: r["net_gain"])

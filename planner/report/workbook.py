@@ -18,7 +18,7 @@ from openpyxl.utils import get_column_letter
 
 from ..plan import LABOUR_NOTE
 from .context import ReportContext
-from .html import _changes_text
+from .html import _changes_text, _share, _slate
 
 HEAD_FILL = PatternFill("solid", fgColor="F1EBDF")
 QTY = "#,##0.0"
@@ -109,13 +109,16 @@ def build_workbook(ctx: ReportContext) -> Workbook:
                                               f"shadow price ({c} per unit)": m2, "range low (capacity)": QTY,
                                               "range high (capacity)": QTY})
 
-    opt_head = ["option", "adds", "cost", "profit with it", "gain", "net gain", "slate changes", "valued by"]
+    opt_head = ["option", "adds", "share used", "cost", "profit with it", "gain", "net gain", "slate changes",
+                "valued by"]
     orows = []
     for o in ctx.options:
         adds = "; ".join(f"{k}: {a:g}" for k, a in (o.get("adds") or {}).items())
-        orows.append([o.get("name"), adds, o.get("cost"), o.get("profit_with"), o.get("gain"), o.get("net_gain"),
-                      _changes_text(o.get("slate_changes")) or "none", ctx.options_source])
-    _sheet(wb, "Options", opt_head, orows, {"cost": m0, "profit with it": m0, "gain": m0, "net gain": m0})
+        share = _share(o)
+        orows.append([o.get("name"), adds, 1.0 if share is None else share, o.get("cost"), o.get("profit_with"),
+                      o.get("gain"), o.get("net_gain"), _changes_text(_slate(o)) or "none", ctx.options_source])
+    _sheet(wb, "Options", opt_head, orows, {"share used": PCT, "cost": m0, "profit with it": m0, "gain": m0,
+                                            "net gain": m0})
 
     if ctx.sweep and ctx.sweep.get("points"):
         names = [x.name for x in p.products]
