@@ -79,7 +79,7 @@ class _Ticks(Formatter):
 
     def __call__(self, x, pos=None) -> str:
         div, suffix = self.scale
-        text = f"{abs(x) / div:,.{self.decimals}f}{suffix}"
+        text = f"{abs(x) / div:,.{self.decimals}f}{suffix if x != 0 else ''}"
         sign = "-" if x < 0 and text.strip("0.,kM") else ""
         cur = self.currency
         sep = " " if cur and cur[-1].isalnum() else ""
@@ -281,41 +281,75 @@ def resources_chart(plan: Plan) -> Chart:
                  figure=fig)
 
 
+#: Changes listed under the sweep chart (the HTML page and the workbook list every one).
+MAX_SWEEP_NOTES = 10
+
+
+def _sweep_curves(sweep: dict[str, Any]) -> tuple[list[float], list[float], list[float]]:
+    """(capacity, profit, shadow price) to draw: the points, plus each exact change point's values just
+    below and just above it where the sweep gives them (so jumps are drawn as jumps)."""
+    rows = [(p["capacity"], 0, p["profit"], p.get("shadow_price")) for p in sweep.get("points", [])]
+    for bp in sweep.get("breakpoints", []):
+        if bp.get("after") is None and bp.get("profit") is not None and "shadow_price_below" in bp:
+            above = bp.get("profit_above")
+            rows.append((bp["capacity"], -1, bp["profit"], bp["shadow_price_below"]))
+            rows.append((bp["capacity"], 1, above if above is not None else bp["profit"],
+                         bp.get("shadow_price_above", bp["shadow_price_below"])))
+    rows.sort(key=lambda r: (r[0], r[1]))
+    return ([r[0] for r in rows], [r[2] for r in rows],
+            [math.nan if r[3] is None else r[3] for r in rows])
+
+
 def sweep_chart(sweep: dict[str, Any], plan: Plan) -> Chart:
-    """Profit and shadow price against one resource's capacity, with the slate changes marked."""
-    pts = sorted(sweep.get("points", []), key=lambda p: p["capacity"])
+    """Profit and shadow price against one resource's capacity, with the slate changes marked and numbered."""
     name = sweep.get("resource", "resource")
     unit = sweep.get("unit", "")
     if not unit:
         unit = next((r.unit for r in plan.resources if r.name == name), "")
-    caps = [p["capacity"] for p in pts]
-    prof = [p["profit"] for p in pts]
-    sps = [p.get("shadow_price") for p in pts]
+    pts = sorted(sweep.get("points", []), key=lambda p: p["capacity"])
+    caps, prof, sps = _sweep_curves(sweep)
+    bps = sorted(sweep.get("breakpoints", []), key=lambda b: b["capacity"])
     cur = plan.currency
     with rc_context(RC):
-        fig = Figure(figsize=(8.6, 5.4), layout="constrained")
+        fig = Figure(figsize=(8.6, 5.8 + 0.17 * min(len(bps), MAX_SWEEP_NOTES)), layout="constrained")
         ax_p, ax_s = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [1.5, 1]})
-        ax_p.plot(caps, prof, color=C["profit"], lw=2.2, marker="o", ms=3.5, label="optimal profit")
-        if any(s is not None for s in sps):
-            ax_s.plot(caps, [s if s is not None else math.nan for s in sps], color=C["sweep"], lw=2.0,
-                      marker="o", ms=3.5)
+        ax_p.plot(caps, prof, color=C["profit"], lw=2.2)
+        ax_p.plot([p["capacity"] for p in pts], [p["profit"] for p in pts], ls="none", marker="o", ms=3.5,
+                  color=C["profit"])
+        if any(not math.isnan(x) for x in sps):
+            ax_s.plot(caps, sps, color=C["sweep"], lw=2.0)
+            ax_s.plot([p["capacity"] for p in pts], [p.get("shadow_price") for p in pts], ls="none", marker="o",
+                      ms=3.5, color=C["sweep"])
         current = next((r.capacity for r in plan.resources if r.name == name), None)
         for ax in (ax_p, ax_s):
             if current is not None:
                 ax.axvline(current, color=C["accent"], lw=1.4)
-            for bp in sweep.get("breakpoints", []):
+            for bp in bps:
                 if bp.get("after") is not None:  # sampled: the change lies somewhere in this interval
                     ax.axvspan(bp["after"], bp["capacity"], color=C["cost"], alpha=0.12, lw=0)
                 else:
                     ax.axvline(bp["capacity"], color=C["cost"], lw=1.0, ls="--")
         if current is not None:
-            ax_p.text(current, 0.98, f" today: {num(current)} {unit}", transform=ax_p.get_xaxis_transform(),
-                      color=C["ink"], fontsize=8.5, va="top")
-        for bp in sweep.get("breakpoints", []):
+            ax_p.text(current, 0.03, f" today: {num(current)} {unit}", transform=ax_p.get_xaxis_transform(),
+                      color=C["ink"], fontsize=8.5, va="bottom")
+        notes = []
+        for k, bp in enumerate(bps, start=1):
             x = bp["capacity"] if bp.get("after") is None else 0.5 * (bp["after"] + bp["capacity"])
-            ax_p.text(x, 0.03, f" {_short(str(bp.get('change', '')))} ", transform=ax_p.get_xaxis_transform(),
-                      rotation=90, fontsize=8, color=C["cost"], va="bottom", ha="center",
-                      bbox={"boxstyle": "square,pad=0.1", "fc": C["paper"], "ec": "none", "alpha": 0.85})
+            ax_p.text(x, 0.97 - 0.07 * ((k - 1) % 2), str(k), transform=ax_p.get_xaxis_transform(), fontsize=7.5,
+                      color=C["panel"], ha="center", va="top", fontweight="bold",
+                      bbox={"boxstyle": "circle,pad=0.2", "fc": C["cost"], "ec": "none"})
+            where = (f"{num(bp['after'])}–{num(bp['capacity'])}" if bp.get("after") is not None
+                     else num(bp["capacity"]))
+            notes.append(f"{k}  {where} {unit}: {_short(str(bp.get('change', '')), 70)}")
+        if notes:
+            shown = notes[:MAX_SWEEP_NOTES]
+            if len(notes) > len(shown):
+                shown.append(f"… and {len(notes) - len(shown)} more (listed in the report and the workbook)")
+            fig.text(0.0, 0.0, "\n".join(shown), fontsize=8.2, color=C["ink"], va="bottom", ha="left",
+                     linespacing=1.45)
+            # Keep the axes above the notes: each line is about 0.2 inch at this size.
+            bottom = min(0.45, (0.2 * len(shown) + 0.1) / fig.get_figheight())
+            fig.get_layout_engine().set(rect=(0, bottom, 1, 1 - bottom))
         ax_p.set_ylabel(f"optimal profit ({cur} per {plan.period})")
         ax_s.set_ylabel(f"shadow price ({cur} per {unit or 'unit'})")
         ax_s.set_xlabel(f"capacity of {name} ({unit or 'units'} per {plan.period})")
@@ -324,10 +358,10 @@ def sweep_chart(sweep: dict[str, Any], plan: Plan) -> Chart:
         _thousands_axis(ax_s)
         ax_p.set_title(f"Capacity sweep: {name}")
     return Chart(key=f"sweep-{slug(name)}", title=f"Capacity sweep of {name}",
-                 caption=("Each point is a full re-solve at that capacity. Dashed lines (or shaded bands, where "
-                          "the points were only sampled): the slate of running products changes there. The solid "
-                          "line is today's capacity."),
-                 figure=fig, marks={"breakpoints": [bp["capacity"] for bp in sweep.get("breakpoints", [])]})
+                 caption=("Each dot is a full re-solve at that capacity. Numbered dashed lines: the slate, a binding "
+                          "limit or the bottleneck changes there (shaded bands where the points were only sampled "
+                          "and the change lies between them). The solid line is today's capacity."),
+                 figure=fig, marks={"breakpoints": [bp["capacity"] for bp in bps]})
 
 
 def _short(text: str, limit: int = 38) -> str:

@@ -245,7 +245,7 @@ def render_html(ctx: ReportContext, charts: list[Chart]) -> str:
                "every product." if n_charted < len(p.products) else "")
     sweep_html = ""
     if sweep:
-        bps = (ctx.sweep or {}).get("breakpoints", [])
+        bps = sorted((ctx.sweep or {}).get("breakpoints", []), key=lambda b: b["capacity"])  # numbered as drawn
         unit = (ctx.sweep or {}).get("unit", "")
 
         def where(b):
@@ -255,7 +255,7 @@ def render_html(ctx: ReportContext, charts: list[Chart]) -> str:
 
         lst = "".join(f"<li>{escape(where(b))}: {escape(str(b.get('change', '')))}</li>" for b in bps)
         sweep_html = (f'<section id="sweep"><h2>Capacity sweep</h2>{_figure(sweep[0])}'
-                      + (f'<ul class="points">{lst}</ul>' if lst else '<p class="note">No slate change in the range swept.</p>')
+                      + (f'<ol class="points">{lst}</ol>' if lst else '<p class="note">No change of slate, binding limits or bottleneck in the range swept.</p>')
                       + "</section>")
     desc = ctx.scenario.description
     sub = f"Plan for one {p.period}" + (f" · {desc}" if desc else "")

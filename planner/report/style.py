@@ -70,8 +70,8 @@ h2 {{ font-size:18px; margin:34px 0 10px; padding-bottom:4px; border-bottom:2px 
 .card .v {{ font-size:22px; font-weight:bold; margin-top:2px; }}
 .card .v.long {{ font-size:17px; line-height:1.25; }}
 .card .n {{ font-size:13px; color:var(--muted); }}
-ul.points {{ margin:14px 0 0; padding-left:20px; }}
-ul.points li {{ margin:3px 0; }}
+ul.points, ol.points {{ margin:14px 0 0; padding-left:22px; }}
+ul.points li, ol.points li {{ margin:3px 0; }}
 table {{ border-collapse:collapse; width:100%; background:var(--panel); font-size:13.5px; }}
 th, td {{ padding:5px 9px; border-bottom:1px solid var(--grid); }}
 th {{ text-align:left; background:#f1ebdf; font-weight:600; }}
