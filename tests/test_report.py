@@ -359,4 +359,4 @@ def test_report_opens_in_headless_chromium(report_dir):
     inked, colours = _not_blank(shot)
     assert inked > 0.05 and colours > 50, (inked, colours)  # text, cards and a chart, not an empty page
     full_inked, _ = _not_blank(report_dir / "screenshot-full.png")
-    assert full_inked > 0.1
+    assert full_inked > 0.03  # a blank or unstyled page would be near 0
