@@ -149,8 +149,9 @@ def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str) -> C
             x = s.max_revenue_volume
             y = (a - b * x) * x
             marks["max_revenue"] = (x, y)
+            capped = b > 0 and sp.max_volume is not None and x >= sp.max_volume and a / (2 * b) > sp.max_volume
             mark("mark-max-revenue", [x], [y], "^", C["revenue"], 8,
-                 f"max revenue: {num(x)} {unit}, {money(y, currency)}", [num(x)])
+                 f"max revenue{' within the cap' if capped else ''}: {num(x)} {unit}, {money(y, currency)}", [num(x)])
         if s.optimal_volume is not None and s.max_profit is not None:
             marks["standalone_optimum"] = (s.optimal_volume, s.max_profit)
             mark("mark-standalone-optimum", [s.optimal_volume], [s.max_profit], "o", C["profit"], 8,
