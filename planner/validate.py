@@ -209,15 +209,17 @@ def _uncertainty_problems(raw: dict[str, Any]) -> list[Problem]:
             if name in products and not isinstance(products[name].get("demand_fit"), dict):
                 problems.append(Problem(where, f"distribution fitted needs products[{name}].demand_fit",
                                         "fit the line from sales history first, or give sd / low, high"))
-        key = (("product", name) if prod is not None else ("resource", str(res).strip()), fld)
-        targets[key] += 1
-        if dist == "fitted":
-            targets[(key[0], "price_slope")] += 1
+        single = (prod is None) != (res is None)
+        if single and dist == "fitted":
+            targets[(("product", name), "price_intercept")] += 1
+            targets[(("product", name), "price_slope")] += 1
+        elif single and fld in (_PRODUCT_FIELDS if prod is not None else ("capacity",)):
+            targets[(("product", name) if prod is not None else ("resource", str(res).strip()), fld)] += 1
         if prod is not None and fld == "price_intercept":
             intercepts.add(name)
     for ((kind, name), fld), count in targets.items():
-        if count > 1 and fld is not None:
-            problems.append(Problem(f"uncertainty[{name}]", f"{fld} of {kind} {name!r} has {count} distributions",
+        if count > 1:
+            problems.append(Problem("uncertainty", f"{fld} of {kind} {name!r} has {count} distributions",
                                     "give one entry per number (fitted covers price_slope too)"))
     pairs: Counter = Counter()
     for i, c in enumerate(_entries(raw, "correlations")):

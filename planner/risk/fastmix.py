@@ -173,6 +173,8 @@ class SampleSolver:
         hi = np.where(slate, d.qp_upper, 0.0)
         on = np.flatnonzero(slate)
         k = on.size
+        if k == 0:  # nothing runs: nothing to solve (capacities are ≥ 0)
+            return "optimal", 0.0, np.zeros(self.n), np.zeros(self.m)
         h = highspy.Highs()
         _silent(h, self.seed, self.threads)
         h.addCols(k, -d.margin[on], lo[on], hi[on], 0, [], [], [])

@@ -16,6 +16,7 @@ Profits include the plant-wide fixed cost (currency per period), as ``Plan.profi
 from __future__ import annotations
 
 import os
+import threading
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -36,7 +37,11 @@ from .sampling import draw_samples
 
 #: Samples per chunk sent to a worker (fixed, so chunking never depends on the cluster).
 CHUNK = 25
+#: How long to try reaching a --scheduler address.
+CONNECT_TIMEOUT = "10s"
 STATUS = ("optimal", "infeasible", "failed")
+#: Pyomo redirects output streams while it solves: one fallback solve at a time per process.
+_PYOMO = threading.Lock()
 
 
 class ClusterError(PlannerError):
@@ -63,7 +68,8 @@ def solve_chunk(base: MixData, start: np.ndarray, points: np.ndarray, rel_gap: f
         if sol is None:
             out["fallback"][s] = True
             try:
-                core = solve_mix(d, rel_gap=rel_gap)
+                with _PYOMO:
+                    core = solve_mix(d, rel_gap=rel_gap)
             except InfeasibleError:
                 out["status"][s] = 1
                 continue
@@ -212,7 +218,7 @@ def _run_chunks(base, start, points, rel_gap, pieces, scheduler, workers, client
         if client is None:
             if scheduler:
                 try:
-                    client = own_client = Client(scheduler, timeout="10s")
+                    client = own_client = Client(scheduler, timeout=CONNECT_TIMEOUT)
                 except (OSError, TimeoutError) as e:
                     raise ClusterError(f"cannot reach the Dask scheduler at {scheduler}: {e} "
                                        "(check the address, or leave --scheduler out for a local cluster)") from None
