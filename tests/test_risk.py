@@ -231,3 +231,20 @@ def test_cli_risk_unreachable_scheduler_is_a_clear_error(tmp_path, monkeypatch):
     res = CliRunner().invoke(main, ["risk", str(path), "--samples", "5", "--scheduler", "tcp://127.0.0.1:9"])
     assert res.exit_code == 4
     assert "cannot reach the Dask scheduler at tcp://127.0.0.1:9" in res.output
+
+
+def test_robust_choice_scores_the_point_plan_like_the_evaluation_and_charts_are_written(tmp_path):
+    from planner.risk.charts import write_charts
+
+    s, _ = validate_scenario(small_uncertain())
+    r = run_risk(s, samples=60, seed=4, workers=0)
+    rc = r.to_dict()["robust_choice"]
+    assert rc["point_plan"]["is_point_plan"]
+    # The point plan's candidate is the same plan: its score is the evaluation's own mean.
+    assert rc["point_plan"]["expected_profit"] == pytest.approx(float(np.mean(r.plan_profit)), rel=1e-7)
+    assert rc["best"]["expected_profit"] >= rc["point_plan"]["expected_profit"]
+    assert rc["point_plan"]["point_estimate_profit"] == pytest.approx(r.plan.profit, rel=1e-7)
+    paths = write_charts(r, tmp_path)
+    assert sorted(p.name for p in paths) == ["profit_fan.png", "profit_histogram.png", "shadow_prices.png"]
+    for p in paths:
+        assert p.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"

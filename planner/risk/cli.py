@@ -34,6 +34,7 @@ def _options(f):
     """The command's arguments and options."""
     f = click.option("--debug", is_flag=True, help="Show the full traceback on errors.")(f)
     f = click.option("--quiet", "-q", is_flag=True, help="Print nothing but errors.")(f)
+    f = click.option("--no-robust", is_flag=True, help="Leave out the sample-based robust choice of slate.")(f)
     f = click.option("--gap", "rel_gap", type=click.FloatRange(min=0), default=1e-4, show_default=True,
                      help="Certified relative gap of every re-optimisation.")(f)
     f = click.option("--workers", type=click.IntRange(min=0), default=None,
@@ -53,7 +54,8 @@ def _options(f):
 
 
 def risk_cmd(scenario: Path, samples: int, seed: int, json_path: Path | None, charts_dir: Path | None,
-             scheduler: str | None, workers: int | None, rel_gap: float, quiet: bool, debug: bool) -> None:
+             scheduler: str | None, workers: int | None, rel_gap: float, no_robust: bool, quiet: bool,
+             debug: bool) -> None:
     """Risk of SCENARIO's plan under its uncertainty: chance of a loss, fragile products, bottleneck value."""
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeElapsedColumn
 
@@ -78,7 +80,7 @@ def risk_cmd(scenario: Path, samples: int, seed: int, json_path: Path | None, ch
                           "drawing samples, starting workers ...[/]")
     try:
         result = run_risk(scenario, samples=samples, seed=seed, rel_gap=rel_gap, scheduler=scheduler,
-                          workers=workers, progress=progress)
+                          workers=workers, progress=progress, robust=not no_robust)
     finally:
         if bar is not None:
             bar.stop()
@@ -132,6 +134,18 @@ def print_risk(result: RiskResult, summary: dict) -> None:
     if any(bad.values()):
         console.print(f"[yellow]Left out of the re-optimised figures:[/] {bad['infeasible']} infeasible samples "
                       f"(commitments do not fit the sampled capacity), {bad['failed']} not certified.")
+    rc = summary.get("robust_choice") or {}
+    if rc.get("best") and rc.get("point_plan"):
+        best, pt = rc["best"], rc["point_plan"]
+        if best["is_point_plan"]:
+            console.print(f"Robust choice (sample average over {len(rc['candidates'])} candidate slates): the "
+                          f"point plan's slate is also the best on average.")
+        else:
+            console.print(f"Robust choice (sample average over {len(rc['candidates'])} candidate slates): running "
+                          f"{', '.join(best['running'])} averages {_money(cur, best['expected_profit'])} against the "
+                          f"point plan's {_money(cur, pt['expected_profit'])}; on independent check samples "
+                          f"{_money(cur, best['expected_profit_check'])} against "
+                          f"{_money(cur, pt['expected_profit_check'])}.")
     t = Table(title="Products", title_justify="left")
     for col in ("product", "planned", "P(running)", "plan sells P5–P95"):
         t.add_column(col, justify="left" if col == "product" else "right")

@@ -47,6 +47,12 @@ def evaluate_plan(plan: Plan, base: MixData, arrays: dict[str, np.ndarray]) -> d
     price = np.array([p.price for p in plan.products])
     made = np.array([p.volume for p in plan.products])
     fixed = float(sum(p.fixed_cost for p in plan.products)) + plan.plant_fixed_cost
+    return evaluate(price, made, fixed, base, arrays)
+
+
+def evaluate(price: np.ndarray, made: np.ndarray, fixed: float, base: MixData,
+             arrays: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """As :func:`evaluate_plan` for prices (currency/unit), planned volumes (units) and total fixed cost."""
     a, b, v, H = arrays["a"], arrays["b"], arrays["v"], arrays["H"]
     taker = base.b == 0  # price takers: sell the planned volume at the sample's price
     with np.errstate(divide="ignore", invalid="ignore"):

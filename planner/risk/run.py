@@ -107,6 +107,8 @@ class RiskResult:
     units: dict[str, str] = field(default_factory=dict)
     truncated: dict[str, int] = field(default_factory=dict)
     info: dict[str, Any] = field(default_factory=dict)
+    demand_shift: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    """(N,) mean relative change of the price intercepts in each sample (for the fan chart)."""
 
     @property
     def ok(self) -> np.ndarray:
@@ -140,7 +142,8 @@ class RiskResult:
                  "probability_binding": float(np.mean(self.shadow[ok, r] > 1e-9)) if ok.any() else None}
                 for r, name in enumerate(self.resources)],
             "truncated_draws": self.truncated,
-            "run": self.info,
+            "robust_choice": self.info.get("robust", {}),
+            "run": {k: v for k, v in self.info.items() if k != "robust"},
             "economics": ("plan under a sample: its prices are kept, volumes follow the sample's demand at "
                           "those prices, capped by the planned volumes and cut in proportion if a sampled "
                           "capacity is short; profit includes every fixed cost of the plan"),
@@ -161,13 +164,14 @@ def _stats(x: np.ndarray) -> dict[str, float | None]:
 
 def run_risk(scenario: Scenario | str | Path, samples: int = 1000, seed: int = 0,
              rel_gap: float = DEFAULT_GAP, scheduler: str | None = None, workers: int | None = None,
-             client: Any = None, progress: Any = None, chunk: int = CHUNK) -> RiskResult:
+             client: Any = None, progress: Any = None, chunk: int = CHUNK, robust: bool = True) -> RiskResult:
     """Risk of the point-estimate plan over ``samples`` draws (see the module docstring).
 
     ``workers=0`` runs in this process without Dask; otherwise ``client`` (a
     ``distributed.Client``), else ``scheduler`` (an address), else a local cluster
     with ``workers`` processes (default: all cores).  ``progress(done, total)``
-    is called as chunks finish.
+    is called as chunks finish.  ``robust``: also the sample-based robust choice
+    (:mod:`planner.risk.robust`) in ``info["robust"]``.
     """
     from ..api import plan as make_plan
     from ..loading import load_scenario
@@ -196,9 +200,16 @@ def run_risk(scenario: Scenario | str | Path, samples: int = 1000, seed: int = 0
     info = {"workers": n_workers, "scheduler": where, "chunk": chunk, "rel_gap": rel_gap,
             "seconds": time.perf_counter() - t0, "seconds_reoptimising": time.perf_counter() - t1,
             "fallback_solves": int(np.sum(merged["fallback"]))}
+    if robust and samples:
+        from .robust import robust_choice
+
+        info["robust"] = robust_choice(scenario, base, point, arrays, merged["running"][merged["status"] == 0],
+                                       seed)
+    info["seconds"] = time.perf_counter() - t0
     return RiskResult(point, samples, seed, ev["profit"], best, merged["status"].astype(np.int8),
                       merged["running"], merged["duals"], ev["sold"], base.products, base.resources,
-                      {r.name: r.unit for r in scenario.resources}, draws.truncated, info)
+                      {r.name: r.unit for r in scenario.resources}, draws.truncated, info,
+                      np.mean((arrays["a"] - base.a) / np.maximum(base.a, 1e-9), axis=1))
 
 
 def _run_chunks(base, start, points, rel_gap, pieces, scheduler, workers, client, progress):
