@@ -3,16 +3,19 @@
 A risk run solves the same scenario shape hundreds of times with other
 intercepts, slopes, unit costs and capacities.  The structure (which products
 may be shut down, their floors, the usage matrix) does not change between
-samples, so :class:`SampleSolver` builds two HiGHS models once and re-solves
-them with new numbers:
+samples, so :class:`SampleSolver` builds the cut MILP once and re-solves it
+with new numbers, and solves small slate QPs beside it:
 
 - the tangent-cut MILP of :mod:`models.cuts` (columns D_i, t_i and y_k for the
   products with a real on/off choice; capacity rows, links D_k ≤ U_k·y_k and
   D_k ≥ max(L_k, M_k)·y_k, then the perspective tangent cuts
   t_i ≤ (a_i − v_i − 2 b_i D̄)·D_i + b_i D̄²·y_i);
 - the fixed-slate QP  max Σ (a_i − v_i) D_i − b_i D_i²  s.t. the capacity rows,
-  lo_i ≤ D_i ≤ hi_i (the slate's bounds, as in :mod:`models.mix`), whose answer is
-  polished exactly by :func:`planner.kkt.polish`.
+  lo_i ≤ D_i ≤ hi_i (the slate's bounds, as in :mod:`models.mix`), over the slate's
+  running products only, whose answer is polished exactly by :func:`planner.kkt.polish`;
+- before any MILP, a Lagrangian certificate (:meth:`SampleSolver.lagrangian`): pricing
+  the capacities at the best slate's shadow prices bounds every slate at once, and
+  often proves that slate optimal without a MILP.
 
 The algorithm is the outer approximation of :mod:`planner.solve` (Duran &
 Grossmann 1986; perspective cuts after Frangioni & Gentile 2006): the MILP's
@@ -62,7 +65,8 @@ def _silent(h: highspy.Highs, seed: int, threads: int) -> None:
 
 
 class SampleSolver:
-    """Build the cut MILP and the slate QP for ``shape`` once; ``solve(d)`` for any data of that shape."""
+    """Build the cut MILP for ``shape`` once; ``solve(d)`` for any data of that shape (same products,
+    resources, usage, commitments and fixed costs; other a, b, v and capacities)."""
 
     def __init__(self, shape: MixData, rel_gap: float = 1e-4, seed: int = 0, threads: int = 1,
                  extra_points: np.ndarray | None = None, max_rounds: int = 200) -> None:

@@ -215,6 +215,8 @@ def run_risk(scenario: Scenario | str | Path, samples: int = 1000, seed: int = 0
 def _run_chunks(base, start, points, rel_gap, pieces, scheduler, workers, client, progress):
     """Solve every chunk; returns (results in chunk order, number of workers, where it ran)."""
     total = len(pieces)
+    if progress:
+        progress(0, total)
     if workers == 0 and client is None and scheduler is None:
         results = []
         for i, piece in enumerate(pieces):
