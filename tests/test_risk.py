@@ -186,18 +186,20 @@ def test_sample_re_optimisation_matches_scip(demo_path):
     base = mix_data(demo)
     draws = draw_samples(demo, 12, seed=4)
     arrays = sample_arrays(base, draws)
-    solver = SampleSolver(base)
+    bounding, outer = SampleSolver(base), SampleSolver(base, enumerate_up_to=0)  # both exact routes
     for i in range(12):
         d = sample_data(base, arrays["a"][i], arrays["b"][i], arrays["v"][i], arrays["H"][i])
-        sol = solver.solve(d)
+        sol, sol2 = bounding.solve(d), outer.solve(d)
         assert sol is not None and sol.status == "optimal"
+        assert sol2 is not None and sol2.objective == pytest.approx(sol.objective, rel=1e-4)
         products = [p.model_copy(update={"price_intercept": float(d.a[k]), "price_slope": float(d.b[k]),
                                          "unit_cost": float(d.v[k])}) for k, p in enumerate(demo.products)]
         resources = [r.model_copy(update={"capacity": float(d.capacity[k])}) for k, r in enumerate(demo.resources)]
         ref, _ = scip_plan(demo.model_copy(update={"products": products, "resources": resources}))
         assert sol.objective == pytest.approx(ref, rel=1e-4), i
         assert sol.bound >= ref - 1e-6 * abs(ref)
-        assert solver.lagrangian(d, sol.duals)[0] >= ref - 1e-6 * abs(ref)  # weak duality
+        assert sol2.bound >= ref - 1e-6 * abs(ref)
+        assert bounding.lagrangian(d, sol.duals)[0] >= ref - 1e-6 * abs(ref)  # weak duality
 
 
 def test_cli_risk_prints_the_chance_of_a_loss_and_writes_json(tmp_path):
@@ -263,9 +265,10 @@ def test_sample_where_the_active_set_qp_fails_matches_scip(demo_path):
     products = [p.model_copy(update={"price_intercept": a[k], "price_slope": b[k]}) for k, p in enumerate(demo.products)]
     resources = [r.model_copy(update={"capacity": H[k]}) for k, r in enumerate(demo.resources)]
     s = demo.model_copy(update={"products": products, "resources": resources})
-    sol = SampleSolver(mix_data(demo)).solve(mix_data(s))
     ref, _ = scip_plan(s)
-    assert sol is not None
-    assert sol.objective == pytest.approx(ref, rel=1e-6)
-    assert [p.name for p, on in zip(demo.products, sol.running) if on] == \
-        ["oak bookcase", "walnut desk", "birch nightstand", "ash bench"]
+    for limit in (12, 0):  # slate bounding, outer approximation
+        sol = SampleSolver(mix_data(demo), enumerate_up_to=limit).solve(mix_data(s))
+        assert sol is not None
+        assert sol.objective == pytest.approx(ref, rel=1e-6)
+        assert [p.name for p, on in zip(demo.products, sol.running) if on] == \
+            ["oak bookcase", "walnut desk", "birch nightstand", "ash bench"]

