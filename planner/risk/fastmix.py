@@ -178,7 +178,9 @@ class SampleSolver:
 
         The QP holds only the slate's columns: HiGHS 1.15's active-set QP was seen to answer
         "unbounded" or "non-convex" on this convex QP when the stopped products were kept as
-        columns fixed at 0.  If it still fails, the interior-point QP (highspy-extras) is tried.
+        columns fixed at 0, and once "optimal" at a point that fails the KKT check.  If it
+        fails, or its answer does not pass the polish, the interior-point QP (highspy-extras)
+        is tried; only an answer that passes the KKT check is used.
         """
         lo = np.where(slate, d.run_floor, 0.0)
         hi = np.where(slate, d.qp_upper, 0.0)
@@ -198,30 +200,28 @@ class SampleSolver:
             start = np.searchsorted(quad, np.arange(k + 1)).astype(np.int32)
             h.passHessian(k, quad.size, highspy.HessianFormat.kTriangular, start, quad.astype(np.int32),
                           2.0 * d.b[on][quad])
-        h.run()
-        status = h.getModelStatus()
-        if status not in (highspy.HighsModelStatus.kOptimal, highspy.HighsModelStatus.kInfeasible) \
-                and quad.size and _has_ipm():
-            h.setOptionValue("solver", "hipo")
+        methods = ["choose", "hipo"] if quad.size and _has_ipm() else ["choose"]
+        for method in methods:
+            h.setOptionValue("solver", method)
             h.clearSolver()
             h.run()
             status = h.getModelStatus()
-        if status == highspy.HighsModelStatus.kInfeasible:
-            return "infeasible", -np.inf, lo, np.zeros(self.m)
-        if status != highspy.HighsModelStatus.kOptimal:
-            return "unsure", -np.inf, lo, np.zeros(self.m)
-        sol = h.getSolution()
-        volume = np.zeros(self.n)
-        volume[on] = np.array(sol.col_value)
-        volume = np.clip(volume, lo, hi)
-        duals = np.maximum(-np.array(sol.row_dual), 0.0) if self.m else np.zeros(0)
-        slack = d.used(volume) < d.capacity - 1e-7 * np.maximum(np.abs(d.capacity), 1.0)
-        duals[slack] = 0.0  # an interior-point answer leaves ~1e-7 on slack rows
-        exact = polish(d, slate, volume, duals)
-        if exact is None:
-            return "unsure", -np.inf, volume, duals
-        volume, duals = exact
-        return "optimal", float(np.sum(d.contribution(volume)) - np.sum(d.F[slate])), volume, duals
+            if status == highspy.HighsModelStatus.kInfeasible:
+                return "infeasible", -np.inf, lo, np.zeros(self.m)
+            if status != highspy.HighsModelStatus.kOptimal:
+                continue
+            sol = h.getSolution()
+            volume = np.zeros(self.n)
+            volume[on] = np.array(sol.col_value)
+            volume = np.clip(volume, lo, hi)
+            duals = np.maximum(-np.array(sol.row_dual), 0.0) if self.m else np.zeros(0)
+            slack = d.used(volume) < d.capacity - 1e-7 * np.maximum(np.abs(d.capacity), 1.0)
+            duals[slack] = 0.0  # an interior-point answer leaves ~1e-7 on slack rows
+            exact = polish(d, slate, volume, duals)
+            if exact is not None:
+                volume, duals = exact
+                return "optimal", float(np.sum(d.contribution(volume)) - np.sum(d.F[slate])), volume, duals
+        return "unsure", -np.inf, lo, np.zeros(self.m)
 
     def lagrangian(self, d: MixData, lam: np.ndarray) -> tuple[float, np.ndarray]:
         """Upper bound L(λ) on the optimum for shadow prices λ ≥ 0, and the slate it suggests.
