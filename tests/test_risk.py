@@ -272,3 +272,23 @@ def test_sample_where_the_active_set_qp_fails_matches_scip(demo_path):
         assert sol.objective == pytest.approx(ref, rel=1e-6)
         assert [p.name for p, on in zip(demo.products, sol.running) if on] == \
             ["oak bookcase", "walnut desk", "birch nightstand", "ash bench"]
+
+
+def test_samples_whose_commitments_do_not_fit_are_counted_not_solved():
+    # Committed 600 units need 600 h of the press; the press is uniform on [500, 700] h, so about half
+    # the samples cannot meet the commitment (P(H < 600) = 0.5 for the uniform distribution).
+    raw = {"name": "tight", "products": [
+        {"name": "bolt", "price_intercept": 50, "price_slope": 0.01, "unit_cost": 20, "min_volume": 600,
+         "usage": {"press": 1.0}}],
+        "resources": [{"name": "press", "capacity": 650}],
+        "uncertainty": [{"resource": "press", "field": "capacity", "distribution": "uniform",
+                         "low": 500, "high": 700}]}
+    s, _ = validate_scenario(raw)
+    r = run_risk(s, samples=200, seed=1, workers=0)
+    d = r.to_dict()
+    short = int(np.sum(r.to_dict()["samples_infeasible"]))
+    assert 0.4 * 200 < short < 0.6 * 200
+    assert short == int(np.sum(sample_arrays(mix_data(s), draw_samples(s, 200, 1))["H"][:, 0] < 600))
+    assert np.all(np.isnan(r.best_profit[r.status == 1]))
+    assert d["best_profit"]["mean"] is not None and d["samples_not_certified"] == 0
+    assert np.all(np.isfinite(r.plan_profit))  # the plan is still evaluated (its volume cut to fit)

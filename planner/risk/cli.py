@@ -121,6 +121,8 @@ def print_risk(result: RiskResult, summary: dict) -> None:
                   f"{run['seconds']:.1f} s on {run['workers']} worker{'s' if run['workers'] != 1 else ''} "
                   f"({run['scheduler']})")
     console.print(f"Point-estimate plan: profit {_money(cur, result.plan.profit)} per {per}.")
+    if not result.info.get("uncertain_numbers"):
+        console.print("[yellow]The scenario has no 'uncertainty' entries: every sample is the point estimate.[/]")
     console.print(f"Under the uncertainty, with its prices kept: expected profit {_money(cur, pp['mean'])} "
                   f"(± {_money(cur, 1.96 * pp['se'])} Monte Carlo), P5 {_money(cur, pp['p5'])}, "
                   f"P50 {_money(cur, pp['p50'])}, P95 {_money(cur, pp['p95'])}.")

@@ -199,7 +199,8 @@ def run_risk(scenario: Scenario | str | Path, samples: int = 1000, seed: int = 0
     best = merged["objective"] - scenario.plant_fixed_cost
     info = {"workers": n_workers, "scheduler": where, "chunk": chunk, "rel_gap": rel_gap,
             "seconds": time.perf_counter() - t0, "seconds_reoptimising": time.perf_counter() - t1,
-            "fallback_solves": int(np.sum(merged["fallback"]))}
+            "fallback_solves": int(np.sum(merged["fallback"])),
+            "uncertain_numbers": int(sum(v.shape[1] for v in draws.values.values()))}
     if robust and samples:
         from .robust import robust_choice
 
