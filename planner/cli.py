@@ -22,7 +22,7 @@ console = Console()
 err_console = Console(stderr=True)
 
 #: Modules that add commands to ``main`` when imported (each has ``register(main)``).
-COMMAND_MODULES: list[str] = ["planner.data_cli", "planner.report.cli"]
+COMMAND_MODULES: list[str] = ["planner.data_cli", "planner.report.cli", "planner.risk.cli"]
 
 
 def friendly(func):

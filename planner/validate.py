@@ -300,6 +300,92 @@ def _cross_problems(raw: dict[str, Any]) -> list[Problem]:
                     if isinstance(res, str) and res.strip() not in resources:
                         hint = did_you_mean(str(res), resources) or "name a resource defined under resources"
                         problems.append(Problem(f"{label}.{key}.{res}", "names a resource that is not defined", hint))
+    problems += _uncertainty_problems(raw)
+    return problems
+
+
+_PRODUCT_FIELDS = ("price_intercept", "price_slope", "unit_cost")
+_PARAMS = {"normal": ("sd",), "triangular": ("low", "mode", "high"), "uniform": ("low", "high"), "fitted": ()}
+
+
+def _uncertainty_problems(raw: dict[str, Any]) -> list[Problem]:
+    """Cross-checks of ``uncertainty`` and ``correlations`` (names, fields, parameters, order)."""
+    problems: list[Problem] = []
+    products = {str(p.get("name")).strip(): p for p in _entries(raw, "products") if isinstance(p.get("name"), str)}
+    resources = set(_names(raw, "resources"))
+    targets: Counter = Counter()
+    intercepts: set[str] = set()
+    for i, u in enumerate(_entries(raw, "uncertainty")):
+        where = f"uncertainty[{i + 1}]"
+        prod, res, fld, dist = u.get("product"), u.get("resource"), u.get("field"), u.get("distribution")
+        if (prod is None) == (res is None):
+            problems.append(Problem(where, "needs exactly one of 'product' or 'resource'"))
+        elif prod is not None and str(prod).strip() not in products:
+            hint = did_you_mean(str(prod), set(products)) or "name a product defined under products"
+            problems.append(Problem(f"{where}.product", f"names a product that is not defined ({prod!r})", hint))
+        elif res is not None and str(res).strip() not in resources:
+            hint = did_you_mean(str(res), resources) or "name a resource defined under resources"
+            problems.append(Problem(f"{where}.resource", f"names a resource that is not defined ({res!r})", hint))
+        if prod is not None and res is None and fld == "capacity":
+            problems.append(Problem(f"{where}.field", "capacity belongs to a resource",
+                                    "a product's uncertain field is price_intercept, price_slope or unit_cost"))
+        if res is not None and prod is None and fld in _PRODUCT_FIELDS:
+            problems.append(Problem(f"{where}.field", f"a resource's uncertain field is capacity (got {fld!r})",
+                                    "use 'product:' for a product's field"))
+        if dist in _PARAMS:
+            for key in _PARAMS[dist]:
+                if u.get(key) is None:
+                    problems.append(Problem(f"{where}.{key}", f"is required with distribution {dist}"))
+            for key in ("sd", "mean", "low", "mode", "high"):
+                if u.get(key) is not None and key not in _PARAMS[dist] and not (dist == "normal" and key == "mean"):
+                    problems.append(Problem(f"{where}.{key}", f"does not go with distribution {dist}",
+                                            f"{dist} takes {', '.join(_PARAMS[dist]) or 'no parameters'}"))
+        lo, mode, hi = u.get("low"), u.get("mode"), u.get("high")
+        if dist == "triangular" and all(_num(x) for x in (lo, mode, hi)) and not lo <= mode <= hi:
+            problems.append(Problem(where, f"needs low <= mode <= high (got {lo:g}, {mode:g}, {hi:g})"))
+        if dist == "uniform" and _num(lo) and _num(hi) and lo > hi:
+            problems.append(Problem(where, f"needs low <= high (got {lo:g}, {hi:g})"))
+        name = str(prod).strip() if prod is not None else None
+        if dist == "fitted":
+            if fld != "price_intercept":
+                problems.append(Problem(f"{where}.field", "fitted moves intercept and slope together",
+                                        "use field: price_intercept"))
+            if name in products and not isinstance(products[name].get("demand_fit"), dict):
+                problems.append(Problem(where, f"distribution fitted needs products[{name}].demand_fit",
+                                        "fit the line from sales history first, or give sd / low, high"))
+        single = (prod is None) != (res is None)
+        if single and dist == "fitted":
+            targets[(("product", name), "price_intercept")] += 1
+            targets[(("product", name), "price_slope")] += 1
+        elif single and fld in (_PRODUCT_FIELDS if prod is not None else ("capacity",)):
+            targets[(("product", name) if prod is not None else ("resource", str(res).strip()), fld)] += 1
+        if prod is not None and fld == "price_intercept":
+            intercepts.add(name)
+    for ((kind, name), fld), count in targets.items():
+        if count > 1:
+            problems.append(Problem("uncertainty", f"{fld} of {kind} {name!r} has {count} distributions",
+                                    "give one entry per number (fitted covers price_slope too)"))
+    pairs: Counter = Counter()
+    for i, c in enumerate(_entries(raw, "correlations")):
+        where = f"correlations[{i + 1}]"
+        names = c.get("products")
+        if not isinstance(names, (list, tuple)) or len(names) != 2:
+            continue  # the schema reports the shape
+        a, b = (str(x).strip() for x in names)
+        for x in (a, b):
+            if x not in products:
+                hint = did_you_mean(x, set(products)) or "name a product defined under products"
+                problems.append(Problem(f"{where}.products", f"names a product that is not defined ({x!r})", hint))
+            elif x not in intercepts:
+                problems.append(Problem(f"{where}.products", f"{x!r} has no uncertainty on price_intercept",
+                                        "correlation links the products' demand: give each an intercept distribution"))
+        if a == b:
+            problems.append(Problem(f"{where}.products", "names the same product twice"))
+        pairs[frozenset((a, b))] += 1
+    for pair, count in pairs.items():
+        if count > 1:
+            problems.append(Problem("correlations", f"{' and '.join(sorted(pair))} are correlated {count} times",
+                                    "give each pair once"))
     return problems
 
 
