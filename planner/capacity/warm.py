@@ -1,0 +1,148 @@
+"""The mixed-integer plan re-solved at other capacities, reusing the work already done.
+
+The tangent cuts of the outer approximation (:mod:`models.cuts`) bound each
+product's contribution and do not depend on any capacity, so one persistent
+cut MILP serves every capacity: only the right-hand sides of the capacity rows
+change, and the cuts found at one capacity stay valid at the next.  Its
+volume bounds are computed at the largest capacities that will be asked for
+(``reach``), which keeps them valid (if a little looser) at every smaller one.
+Each solve stops when (MILP bound − best slate's profit) / max(|profit|, 1) is
+at most ``rel_gap``; slates are evaluated by a caller-supplied function (exact
+parametric paths in the sweep, a fixed-slate QP by default).  As in Duran &
+Grossmann's outer approximation, cuts are added at each evaluated slate's own
+optimal volumes as well as at the MILP's, which closes the gap in few rounds.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+
+from models.cuts import add_cuts, build_cut_model
+from models.data import MixData
+
+from ..errors import SolverError
+from ..qp import solve_slate_qp
+from ..solve import _initial_points, relative_gap
+
+
+@dataclass
+class WarmResult:
+    """The best slate at one capacity, its profit (products only) and the certified bound."""
+
+    slate: np.ndarray
+    profit: float
+    bound: float
+    rounds: int
+
+    @property
+    def gap(self) -> float:
+        return relative_gap(self.bound, self.profit)
+
+
+def slate_key(slate: np.ndarray) -> bytes:
+    return np.packbits(np.asarray(slate, dtype=bool)).tobytes()
+
+
+class WarmMix:
+    """A persistent cut MILP for one scenario at varying capacities (no capacity options)."""
+
+    def __init__(self, d: MixData, reach: np.ndarray, rel_gap: float = 1e-8, max_rounds: int = 200) -> None:
+        from pyomo.contrib.appsi.solvers import Highs
+
+        self.d = d
+        self.rel_gap = rel_gap
+        self.max_rounds = max_rounds
+        bounds = d.with_capacity(np.maximum(np.asarray(reach, dtype=float), d.capacity))
+        self.m = build_cut_model(bounds)
+        add_cuts(self.m, bounds, *_initial_points(bounds))
+        self.opt = Highs()
+        if not self.opt.available():
+            raise SolverError("HiGHS is not available to Pyomo: pip install 'highspy==1.15.1'")
+        self.opt.config.load_solution = False
+        self.opt.highs_options = {"random_seed": 0, "threads": 1, "mip_rel_gap": rel_gap / 10,
+                                  "mip_abs_gap": 1e-9}
+        self.free_idx = np.flatnonzero(d.can_stop)
+        self.free = [self.m.running[d.products[k]] for k in self.free_idx]
+        self.rhs = bounds.capacity.astype(float).copy()  # the rows as built
+        self.scale = np.maximum(np.abs(d.margin) * bounds.upper, 1.0)
+        self.milp_solves = 0
+        self.qp_solves = 0
+
+    def _set_capacity(self, cap: np.ndarray) -> None:
+        for r, name in enumerate(self.d.resources):
+            if cap[r] != self.rhs[r]:
+                con = self.m.capacity[name]
+                con.set_value((None, con.body, float(cap[r])))
+                self.rhs[r] = cap[r]
+
+    def _qp_profit(self, cap: np.ndarray) -> Callable[[np.ndarray], tuple[float, np.ndarray | None]]:
+        d = self.d.with_capacity(cap)
+
+        def evaluate(slate: np.ndarray) -> tuple[float, np.ndarray | None]:
+            self.qp_solves += 1
+            res = solve_slate_qp(d, slate)
+            return (res.objective, res.volume) if res.status == "optimal" else (-np.inf, None)
+
+        return evaluate
+
+    def solve(self, cap: np.ndarray,
+              evaluate: Callable[[np.ndarray], tuple[float, np.ndarray | None]] | None = None,
+              known: list[np.ndarray] = ()) -> WarmResult:
+        """The optimal slate at capacities ``cap``; ``known`` slates are tried first as incumbents.
+
+        ``evaluate(slate)`` returns the slate's optimal profit at ``cap``
+        (products only, −inf if infeasible) and its volumes (or None).
+        """
+        from pyomo.contrib.appsi.base import TerminationCondition as ATC
+
+        cap = np.asarray(cap, dtype=float)
+        evaluate = evaluate or self._qp_profit(cap)
+        self._set_capacity(cap)
+        best_slate, best = None, -np.inf
+        seen: dict[bytes, float] = {}
+
+        def consider(slate: np.ndarray) -> None:
+            nonlocal best_slate, best
+            key = slate_key(slate)
+            if key not in seen:
+                seen[key], x = evaluate(slate)
+                if seen[key] > best:
+                    best, best_slate = seen[key], slate.copy()
+                if x is not None:
+                    at = np.flatnonzero(slate & (self.d.b > 0))
+                    add_cuts(self.m, self.d, at, x[at])
+
+        for s in known:
+            consider(np.asarray(s, dtype=bool))
+        bound = np.inf
+        rounds = 0
+        while rounds < self.max_rounds:
+            rounds += 1
+            res = self.opt.solve(self.m)
+            self.milp_solves += 1
+            tc = res.termination_condition
+            if tc == ATC.infeasible:
+                raise SolverError("the commitments do not fit in the capacities asked for: "
+                                  "start the range higher")
+            if tc != ATC.optimal or res.best_feasible_objective is None:
+                raise SolverError(f"HiGHS ended the cut MILP with {tc.name} while re-solving at other capacities")
+            bound = min(bound, float(res.best_objective_bound))
+            res.solution_loader.load_vars()
+            m, d = self.m, self.d
+            vol = np.array([m.volume[p].value or 0.0 for p in d.products])
+            t = np.array([m.contribution[p].value or 0.0 for p in d.products])
+            slate = np.ones(d.n, dtype=bool)
+            slate[self.free_idx] = np.array([(v.value or 0.0) > 0.5 for v in self.free], dtype=bool)
+            consider(slate)
+            if relative_gap(bound, best) <= self.rel_gap:
+                break
+            over = t - d.contribution(vol) > 1e-10 * self.scale
+            if not over.any():
+                break
+            add_cuts(m, d, np.flatnonzero(over), vol[over])
+        if best_slate is None or not np.isfinite(best):
+            raise SolverError("no feasible plan found while re-solving at other capacities")
+        return WarmResult(best_slate, best, max(bound, best), rounds)
