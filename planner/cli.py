@@ -21,7 +21,7 @@ console = Console()
 err_console = Console(stderr=True)
 
 #: Modules that add commands to ``main`` when imported (each has ``register(main)``).
-COMMAND_MODULES: list[str] = []
+COMMAND_MODULES: list[str] = ["planner.capacity.cli"]
 
 
 def friendly(func):
