@@ -207,7 +207,10 @@ def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
         if d.n_options:
             taken = np.array([(m.option_scale[o].value or 0.0) > 0.5 for o in d.options]) & d.opt_whole
         left = None if deadline is None else max(deadline - time.perf_counter(), 0.01)
-        slates.evaluate(slate, left, taken)
+        qp_here = slates.evaluate(slate, left, taken)
+        if qp_here.status == "optimal":  # cuts at the slate's own optimum too (Duran & Grossmann)
+            at = np.flatnonzero(slate & (d.b > 0) & (qp_here.volume > 0))
+            add_cuts(m, d, at, qp_here.volume[at])
         if tc == ATC.maxTimeLimit:
             status = "time_limit"
             break

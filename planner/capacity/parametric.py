@@ -42,6 +42,7 @@ class SlateQP:
     lo: np.ndarray
     hi: np.ndarray
     K: float  # fixed costs of the slate (currency)
+    cap: np.ndarray  # market or contract caps (units; inf if none), to name what an upper bound is
     products: tuple[str, ...]
     resources: tuple[str, ...]
 
@@ -50,7 +51,7 @@ class SlateQP:
         slate = np.asarray(slate, dtype=bool)
         H = d.usage_dense() if len(d.resources) else np.zeros((0, d.n))
         return cls(d.margin, d.b, H, np.where(slate, d.run_floor, 0.0), np.where(slate, d.qp_upper, 0.0),
-                   float(d.F[slate].sum()), d.products, d.resources)
+                   float(d.F[slate].sum()), d.cap, d.products, d.resources)
 
     def profit(self, x: np.ndarray) -> float:
         return float(self.c @ x - self.b @ (x * x) - self.K)
@@ -198,15 +199,25 @@ _TEXT = {
 
 
 def describe(events: list, q: SlateQP) -> str:
-    """Event texts in the trade's words ('' if none: the piece never ends that way)."""
+    """Event texts in the trade's words ('' if none: the piece never ends that way).
+
+    When a limit stops binding, the products it held reach their best volumes
+    at the same point; only the limit is named then.
+    """
+    unbinding = any(kind == "unbinds" for kind, _, _ in events)
     out = []
     for kind, name, i in events:
+        at_cap = q.hi[i] >= q.cap[i] * (1 - 1e-12) if kind == "to_hi" else False
         if kind == "to_lo" and q.lo[i] == 0:
             out.append(f"{name} falls to zero")
         elif kind == "to_lo":
             out.append(f"{name} falls to its minimum ({q.lo[i]:,.6g})")
-        elif kind == "to_hi":
+        elif kind == "to_hi" and at_cap:
             out.append(f"{name} reaches its cap ({q.hi[i]:,.6g})")
+        elif kind == "to_hi" and not unbinding:
+            out.append(f"{name} reaches its most profitable volume ({q.hi[i]:,.6g})")
+        elif kind == "to_hi":
+            continue
         elif kind == "leaves_lo" and q.lo[i] == 0:
             out.append(f"{name} would start to be made")
         else:
