@@ -190,3 +190,26 @@ def test_choose_options_enumerates_whole_options(demo_path):
         fixed = d.with_whole_taken(taken)  # shifts decided, partial options free
         best = max(best, solve_mix(fixed, rel_gap=1e-9).objective - d.whole_cost(taken) - s.plant_fixed_cost)
     assert p.extras["option_pick"]["profit"] == pytest.approx(best, rel=1e-8)
+
+
+def test_plan_cli_json_has_ranges_and_options(demo_path, tmp_path):
+    import json
+
+    from click.testing import CliRunner
+
+    from planner.cli import main
+
+    out = tmp_path / "plan.json"
+    res = CliRunner().invoke(main, ["plan", str(demo_path), "--json", str(out), "--choose-options"])
+    assert res.exit_code == 0, res.output
+    assert "Shadow prices and their ranges" in res.output and "Capacity options" in res.output
+    assert "Saturday shift in finishing" in res.output and "local law" in res.output
+    data = json.loads(out.read_text())
+    booth = next(r for r in data["resources"] if r["name"] == "finishing booth")
+    low, high = booth["shadow_price_range"]
+    assert low < booth["capacity"] < high and booth["shadow_price_slope"] < 0
+    assert {o["name"] for o in data["options"]} == {"Saturday shift in finishing", "CNC overtime", "premium board"}
+    for o in data["options"]:
+        assert set(o) >= {"name", "cost", "profit_with", "gain", "net_gain", "slate_changes"}
+        assert o["net_gain"] == pytest.approx(o["gain"] - o["cost"])
+    assert data["option_pick"]["profit"] >= data["profit"]
