@@ -115,7 +115,8 @@ def print_sweep(sw: Sweep, console: Console) -> None:
     for col in ("capacity", "profit", "shadow price below → above", "change"):
         b.add_column(col, justify="left" if col == "change" else "right", overflow="fold")
     for x in sw.breakpoints:
-        b.add_row(f"{x.capacity:,.4f}{unit}", money(x.profit, c),
+        profit = money(x.profit, c) + (f" → {money(x.profit_above, c)}" if x.profit_above is not None else "")
+        b.add_row(f"{x.capacity:,.4f}{unit}", profit,
                   f"{c}{x.shadow_price_below:,.2f} → {c}{x.shadow_price_above:,.2f}", x.change)
     if sw.breakpoints:
         console.print(b)

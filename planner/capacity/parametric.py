@@ -219,7 +219,13 @@ def describe(events: list, q: SlateQP) -> str:
         elif kind == "to_hi":
             continue
         elif kind == "leaves_lo" and q.lo[i] == 0:
-            out.append(f"{name} would start to be made")
+            out.append(f"{name} starts to be made")
+        elif kind == "leaves_lo":
+            out.append(f"{name} rises above its minimum ({q.lo[i]:,.6g})")
+        elif kind == "leaves_hi" and q.hi[i] >= q.cap[i] * (1 - 1e-12):
+            out.append(f"{name} falls below its cap ({q.hi[i]:,.6g})")
+        elif kind == "leaves_hi":
+            out.append(f"{name} falls below its most profitable volume ({q.hi[i]:,.6g})")
         else:
             out.append(_TEXT[kind].format(name))
     return "; ".join(out)

@@ -54,9 +54,10 @@ class Breakpoint:
     capacity: float
     change: str
     kind: str  # "slate", "limit" or "bottleneck"
-    profit: float
+    profit: float  # just below (a slate change can make the profit jump: see profit_above)
     shadow_price_below: float
     shadow_price_above: float
+    profit_above: float | None = None  # just above, where it differs (a minimum run becoming possible)
 
 
 @dataclass
@@ -206,8 +207,10 @@ def _breakpoints(sw: _Sweeper, T: np.ndarray, slates: list, changes: list) -> li
         ba, bb = _bottleneck(d, lam_a), _bottleneck(d, lam_b)
         if ba != bb:
             text += f"; bottleneck: {ba or 'none'} → {bb or 'none'}"
-        profit = pa.profit(ta) - sw.plant
-        out.append(Breakpoint(sw.H0 + ta, text, "slate", profit, float(max(lam_a[r], 0)), float(max(lam_b[r], 0))))
+        profit, above = pa.profit(ta) - sw.plant, pb.profit(ta) - sw.plant
+        jump = above if abs(above - profit) > 1e-9 * max(abs(profit), 1.0) else None
+        out.append(Breakpoint(sw.H0 + ta, text, "slate", profit, float(max(lam_a[r], 0)), float(max(lam_b[r], 0)),
+                              jump))
     for (ta, tb), slate in zip(zip(edges[:-1], edges[1:]), stretch_slates):
         path = sw.path(slate)
         pieces = path.cover(ta, tb)

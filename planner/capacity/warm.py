@@ -62,6 +62,14 @@ class WarmMix:
         if not self.opt.available():
             raise SolverError("HiGHS is not available to Pyomo: pip install 'highspy==1.15.1'")
         self.opt.config.load_solution = False
+        uc = self.opt.update_config  # only cuts are added and capacity rows changed between solves
+        uc.check_for_new_or_removed_vars = False
+        uc.check_for_new_or_removed_params = False
+        uc.update_vars = False
+        uc.update_params = False
+        uc.update_named_expressions = False
+        uc.check_for_new_objective = False
+        uc.update_objective = False
         self.opt.highs_options = {"random_seed": 0, "threads": 1, "mip_rel_gap": rel_gap / 10,
                                   "mip_abs_gap": 1e-9}
         self.free_idx = np.flatnonzero(d.can_stop)
@@ -70,6 +78,10 @@ class WarmMix:
         self.scale = np.maximum(np.abs(d.margin) * bounds.upper, 1.0)
         self.milp_solves = 0
         self.qp_solves = 0
+
+    def _cut_at(self, slate: np.ndarray, x: np.ndarray) -> None:
+        at = np.flatnonzero(slate & (self.d.b > 0) & (x > 0))
+        add_cuts(self.m, self.d, at, x[at])
 
     def _set_capacity(self, cap: np.ndarray) -> None:
         for r, name in enumerate(self.d.resources):
@@ -104,19 +116,22 @@ class WarmMix:
         best_slate, best = None, -np.inf
         seen: dict[bytes, float] = {}
 
-        def consider(slate: np.ndarray) -> None:
-            nonlocal best_slate, best
+        best_x = None
+
+        def consider(slate: np.ndarray, cut: bool) -> None:
+            nonlocal best_slate, best, best_x
             key = slate_key(slate)
             if key not in seen:
                 seen[key], x = evaluate(slate)
                 if seen[key] > best:
-                    best, best_slate = seen[key], slate.copy()
-                if x is not None:
-                    at = np.flatnonzero(slate & (self.d.b > 0))
-                    add_cuts(self.m, self.d, at, x[at])
+                    best, best_slate, best_x = seen[key], slate.copy(), x
+                if cut and x is not None:
+                    self._cut_at(slate, x)
 
         for s in known:
-            consider(np.asarray(s, dtype=bool))
+            consider(np.asarray(s, dtype=bool), cut=False)
+        if best_x is not None:
+            self._cut_at(best_slate, best_x)  # the incumbent's own optimum: the cuts that matter here
         bound = np.inf
         rounds = 0
         while rounds < self.max_rounds:
@@ -136,7 +151,7 @@ class WarmMix:
             t = np.array([m.contribution[p].value or 0.0 for p in d.products])
             slate = np.ones(d.n, dtype=bool)
             slate[self.free_idx] = np.array([(v.value or 0.0) > 0.5 for v in self.free], dtype=bool)
-            consider(slate)
+            consider(slate, cut=True)
             if relative_gap(bound, best) <= self.rel_gap:
                 break
             over = t - d.contribution(vol) > 1e-10 * self.scale
