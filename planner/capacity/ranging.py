@@ -20,6 +20,8 @@ import numpy as np
 
 from models.data import MixData, committed_floor, tight_upper
 
+from ..qp import solve_slate_qp
+from .parametric import Degenerate, SlateQP, classify, is_kkt, piece_at
 from .paths import SlatePath, overtakes
 from .warm import WarmMix, slate_key
 
@@ -64,9 +66,21 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6) -> lis
     R = len(d.resources)
     need = d.used(committed_floor(d))
     paths, pieces, ends = [], [], []
+    start = _start(d, slate)  # one solve serves every direction
     for r in range(R):
         path = SlatePath(d, slate, np.eye(R)[r])
-        piece = path.at(0.0)
+        piece = None
+        if start is not None:
+            try:
+                piece = piece_at(path.q, path.cap0, path.u, 0.0, *start)
+                if is_kkt(path.q, path.cap0, piece.x(0.0), piece.lam(0.0)):
+                    path.pieces.append(piece)
+                else:
+                    piece = None
+            except Degenerate:
+                piece = None
+        if piece is None:
+            piece = path.at(0.0)
         paths.append(path)
         pieces.append(piece)
         if piece is None:
@@ -109,6 +123,14 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6) -> lis
         out.append(Range(name, lam, slope, H0 + lo if np.isfinite(lo) else None,
                          H0 + hi if np.isfinite(hi) else None, why_lo, why_hi or "no end: the limit stays slack"))
     return out
+
+
+def _start(d: MixData, slate: np.ndarray):
+    """The active set of the plan's slate at the scenario's capacities (None if not found)."""
+    res = solve_slate_qp(d, slate)
+    if res.status != "optimal":
+        return None
+    return classify(SlateQP.of(d, slate), res.volume, res.duals)
 
 
 def _slate_change_between(d: MixData, warm: WarmMix, path: SlatePath, slate: np.ndarray, r: int,
