@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from models.cuts import add_cuts, build_cut_model
-from models.data import MixData
+from models.data import MixData, tight_upper
 
 from ..errors import SolverError
 from ..qp import solve_slate_qp
@@ -50,12 +50,20 @@ class WarmMix:
     """A persistent cut MILP for one scenario at varying capacities (no capacity options)."""
 
     def __init__(self, d: MixData, reach: np.ndarray, rel_gap: float = 1e-8, max_rounds: int = 200) -> None:
-        from pyomo.contrib.appsi.solvers import Highs
-
         self.d = d
         self.rel_gap = rel_gap
         self.max_rounds = max_rounds
-        bounds = d.with_capacity(np.maximum(np.asarray(reach, dtype=float), d.capacity))
+        self.reach = np.maximum(np.asarray(reach, dtype=float), d.capacity)
+        self.milp_solves = 0
+        self.qp_solves = 0
+        self._build()
+
+    def _build(self) -> None:
+        """(Re)build the persistent cut MILP (bounds at ``reach``) and its HiGHS instance."""
+        from pyomo.contrib.appsi.solvers import Highs
+
+        d = self.d
+        bounds = d.with_capacity(self.reach)
         self.m = build_cut_model(bounds)
         add_cuts(self.m, bounds, *_initial_points(bounds))
         self.opt = Highs()
@@ -70,25 +78,31 @@ class WarmMix:
         uc.update_named_expressions = False
         uc.check_for_new_objective = False
         uc.update_objective = False
-        self.opt.highs_options = {"random_seed": 0, "threads": 1, "mip_rel_gap": rel_gap / 10,
+        self.opt.highs_options = {"random_seed": 0, "threads": 1, "mip_rel_gap": self.rel_gap / 10,
                                   "mip_abs_gap": 1e-9}
         self.free_idx = np.flatnonzero(d.can_stop)
         self.free = [self.m.running[d.products[k]] for k in self.free_idx]
         self.rhs = bounds.capacity.astype(float).copy()  # the rows as built
+        self.links = bounds.upper.copy()  # U_i in volume_cap[i]: D_i ≤ U_i·y_i, as built
         self.scale = np.maximum(np.abs(d.margin) * bounds.upper, 1.0)
-        self.milp_solves = 0
-        self.qp_solves = 0
 
     def _cut_at(self, slate: np.ndarray, x: np.ndarray) -> None:
         at = np.flatnonzero(slate & (self.d.b > 0) & (x > 0))
         add_cuts(self.m, self.d, at, x[at])
 
     def _set_capacity(self, cap: np.ndarray) -> None:
+        """Capacity rows to ``cap``; the on/off links D ≤ U·y tightened to the bounds valid there."""
         for r, name in enumerate(self.d.resources):
             if cap[r] != self.rhs[r]:
                 con = self.m.capacity[name]
                 con.set_value((None, con.body, float(cap[r])))
                 self.rhs[r] = cap[r]
+        U = tight_upper(self.d.with_capacity(np.minimum(cap, self.reach)))
+        for k in self.free_idx:
+            if abs(U[k] - self.links[k]) > 1e-9 * max(abs(U[k]), 1.0):
+                p = self.d.products[k]
+                self.m.volume_cap[p].set_value(self.m.volume[p] - float(U[k]) * self.m.running[p] <= 0)
+                self.links[k] = U[k]
 
     def _qp_profit(self, cap: np.ndarray) -> Callable[[np.ndarray], tuple[float, np.ndarray | None]]:
         d = self.d.with_capacity(cap)
@@ -134,6 +148,7 @@ class WarmMix:
             self._cut_at(best_slate, best_x)  # the incumbent's own optimum: the cuts that matter here
         bound = np.inf
         rounds = 0
+        rebuilt = False
         while rounds < self.max_rounds:
             rounds += 1
             res = self.opt.solve(self.m)
@@ -143,6 +158,13 @@ class WarmMix:
                 raise SolverError("the commitments do not fit in the capacities asked for: "
                                   "start the range higher")
             if tc != ATC.optimal or res.best_feasible_objective is None:
+                if not rebuilt:  # numerical trouble with many cuts: start again from a fresh model once
+                    rebuilt = True
+                    self._build()
+                    self._set_capacity(cap)
+                    if best_x is not None:
+                        self._cut_at(best_slate, best_x)
+                    continue
                 raise SolverError(f"HiGHS ended the cut MILP with {tc.name} while re-solving at other capacities")
             bound = min(bound, float(res.best_objective_bound))
             res.solution_loader.load_vars()
