@@ -84,11 +84,25 @@ class WarmMix:
         self.free = [self.m.running[d.products[k]] for k in self.free_idx]
         self.rhs = bounds.capacity.astype(float).copy()  # the rows as built
         self.links = bounds.upper.copy()  # U_i in volume_cap[i]: D_i ≤ U_i·y_i, as built
+        self.points: dict[int, list[float]] = {}  # QP-point cuts so far, per product
         self.scale = np.maximum(np.abs(d.margin) * bounds.upper, 1.0)
 
     def _cut_at(self, slate: np.ndarray, x: np.ndarray) -> None:
+        """Cuts at a slate's optimal volumes, skipping any within 1e-3 of U_i of a cut already there.
+
+        A nearby cut over-estimates the contribution by at most b_i·(1e-3·U_i)², so the
+        skipped ones add little; the MILP-point cuts of the loop are never skipped.
+        """
         at = np.flatnonzero(slate & (self.d.b > 0) & (x > 0))
-        add_cuts(self.m, self.d, at, x[at])
+        keep = []
+        for k in at.tolist():
+            pts = self.points.setdefault(k, [])
+            tol = 1e-3 * max(float(self.links[k]) if np.isfinite(self.links[k]) else 1.0, 1.0)
+            if not any(abs(x[k] - q) <= tol for q in pts):
+                pts.append(float(x[k]))
+                keep.append(k)
+        if keep:
+            add_cuts(self.m, self.d, np.array(keep), x[keep])
 
     def _set_capacity(self, cap: np.ndarray) -> None:
         """Capacity rows to ``cap``; the on/off links D ≤ U·y tightened to the bounds valid there."""
