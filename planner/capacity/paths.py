@@ -51,10 +51,27 @@ class SlatePath:
     def feasible(self, t: float) -> bool:
         return t >= self.t_min - 1e-12 * max(abs(self.t_min), 1.0) if np.isfinite(self.t_min) else False
 
-    def fresh(self, t: float) -> Piece | None:
-        """The piece through t from a HiGHS solve there; None if the slate is infeasible at t."""
+    def guess(self, t: float, active: np.ndarray) -> Piece | None:
+        """The piece through t on a guessed active set (rows binding, every running volume free), if it is optimal."""
+        at_lo = self.q.hi <= self.q.lo
+        try:
+            p = piece_at(self.q, self.cap0, self.u, t, np.asarray(active, dtype=bool), at_lo, np.zeros_like(at_lo))
+        except Degenerate:
+            return None
+        if p.t_lo <= t <= p.t_hi and is_kkt(self.q, self.cap0 + t * self.u, p.x(t), p.lam(t)):
+            p.t_lo = max(p.t_lo, self.t_min)
+            self._keep(p)
+            return p
+        return None
+
+    def fresh(self, t: float, hint: np.ndarray | None = None) -> Piece | None:
+        """The piece through t (from a guessed active set ``hint``, else a HiGHS solve); None if infeasible."""
         if not self.feasible(t):
             return None
+        if hint is not None:
+            p = self.guess(t, hint)
+            if p is not None:
+                return p
         for shift in (0.0, 1e-7, -1e-7, 1e-5):
             tt = t + shift * max(abs(t), 1.0)
             if not self.feasible(tt):
@@ -78,12 +95,12 @@ class SlatePath:
         self.pieces.append(p)
         self.pieces.sort(key=lambda x: x.t_lo)
 
-    def at(self, t: float) -> Piece | None:
+    def at(self, t: float, hint: np.ndarray | None = None) -> Piece | None:
         """The piece containing t (computed if needed); None where the slate is infeasible."""
         for p in self.pieces:
             if p.contains(t):
                 return p
-        return self.fresh(t)
+        return self.fresh(t, hint)
 
     def cover(self, t_a: float, t_b: float) -> list[Piece]:
         """Pieces covering [max(t_a, t_min), t_b] in order (empty if infeasible throughout)."""

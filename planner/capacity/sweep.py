@@ -97,8 +97,15 @@ class _Sweeper:
 
     def best(self, t: float) -> np.ndarray:
         """The optimal slate at H0 + t (re-solved with carried cuts)."""
+        hint = None  # binding rows of a slate already followed here: a good guess for a new one
+        for known_path in self.paths.values():
+            near = next((q for q in known_path.pieces if q.contains(t)), None)
+            if near is not None:
+                hint = near.active
+                break
+
         def evaluate(slate: np.ndarray):
-            p = self.path(slate).at(t)
+            p = self.path(slate).at(t, hint)
             return (-np.inf, None) if p is None else (self.path(slate).q.profit(p.x(t)), p.x(t))
 
         known = [p.slate for p in self.paths.values()]
