@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..errors import PlannerError
 from ..plan import Plan
 from ..prepare import mix_data
 from ..qp import solve_slate_qp
@@ -24,6 +25,14 @@ def add_capacity_analysis(p: Plan, s: Scenario, choose: bool = False, rel_gap: f
     and the reasons; ``p.extras['options']`` one entry per option; with ``choose``,
     ``p.extras['option_pick']``.  Returns ``p``.
     """
+    try:
+        return _analyse(p, s, choose, rel_gap)
+    except PlannerError as e:  # the plan itself stands; say what is missing and why
+        p.warnings.append(f"capacity analysis not done: {e}")
+        return p
+
+
+def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float) -> Plan:
     d = mix_data(s)
     slate = plan_slate(p, d.can_stop)
     qp = solve_slate_qp(d, slate)

@@ -205,12 +205,12 @@ def _breakpoints(sw: _Sweeper, T: np.ndarray, slates: list, changes: list) -> li
     edges = [float(T[0])] + [c[0] for c in changes] + [float(T[-1])]
     stretch_slates = [slates[0]] + [c[2] for c in changes]
     out: list[Breakpoint] = []
-    for (ta, sa_b, sb), in zip([(c[0], c[1], c[2]) for c in changes]):
-        pa, pb = sw.path(sa_b), sw.path(sb)
+    for ta, before, after in changes:
+        pa, pb = sw.path(before), sw.path(after)
         la, lb = pa.at(ta), pb.at(ta)
         lam_a = la.lam(ta) if la else np.zeros(len(d.resources))
         lam_b = lb.lam(ta) if lb else np.zeros(len(d.resources))
-        text = "slate: " + slate_change(d, sa_b, sb)
+        text = "slate: " + slate_change(d, before, after)
         ba, bb = _bottleneck(d, lam_a), _bottleneck(d, lam_b)
         if ba != bb:
             text += f"; bottleneck: {ba or 'none'} → {bb or 'none'}"
