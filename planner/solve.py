@@ -209,7 +209,8 @@ def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
         left = None if deadline is None else max(deadline - time.perf_counter(), 0.01)
         qp_here = slates.evaluate(slate, left, taken)
         if qp_here.status == "optimal":  # cuts at the slate's own optimum too (Duran & Grossmann)
-            at = np.flatnonzero(slate & (d.b > 0) & (qp_here.volume > 0))
+            x = qp_here.volume  # (a flat tangent at a product's peak is already among the first cuts)
+            at = np.flatnonzero(slate & (d.b > 0) & (x > 0) & (np.abs(d.margin - 2 * d.b * x) > 1e-9 * np.abs(d.margin)))
             add_cuts(m, d, at, qp_here.volume[at])
         if tc == ATC.maxTimeLimit:
             status = "time_limit"

@@ -56,10 +56,10 @@ def check_against_grid(s, resource: str, lo: float, hi: float, steps: int, fine:
 
 def test_demo_finishing_booth_every_slate_change(demo_path):
     """The demo's bottleneck swept from 2,000 to 2,900 h: the three slate changes the fine grid sees
-    (every 30 h) are each found exactly; just either side of each, independent re-solves run the
+    (every 37.5 h) are each found exactly; just either side of each, independent re-solves run the
     slates the sweep reports."""
     s, _ = load_scenario(demo_path)
-    sw, changed = check_against_grid(s, "finishing booth", 2000.0, 2900.0, 6, 30)
+    sw, changed = check_against_grid(s, "finishing booth", 2000.0, 2900.0, 6, 24)
     assert len(changed) == 3
     d = mix_data(s)
     r = d.resources.index("finishing booth")

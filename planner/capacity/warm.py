@@ -79,7 +79,7 @@ class WarmMix:
         uc.check_for_new_objective = False
         uc.update_objective = False
         self.opt.highs_options = {"random_seed": 0, "threads": 1, "mip_rel_gap": self.rel_gap / 10,
-                                  "mip_abs_gap": 1e-9}
+                                  "mip_abs_gap": 1e-9, "log_to_console": False}
         self.free_idx = np.flatnonzero(d.can_stop)
         self.free = [self.m.running[d.products[k]] for k in self.free_idx]
         self.rhs = bounds.capacity.astype(float).copy()  # the rows as built
@@ -93,7 +93,8 @@ class WarmMix:
         A nearby cut over-estimates the contribution by at most b_i·(1e-3·U_i)², so the
         skipped ones add little; the MILP-point cuts of the loop are never skipped.
         """
-        at = np.flatnonzero(slate & (self.d.b > 0) & (x > 0))
+        d = self.d  # (a flat tangent at a product's peak is already among the first cuts)
+        at = np.flatnonzero(slate & (d.b > 0) & (x > 0) & (np.abs(d.margin - 2 * d.b * x) > 1e-9 * np.abs(d.margin)))
         keep = []
         for k in at.tolist():
             pts = self.points.setdefault(k, [])
