@@ -12,6 +12,10 @@ plant-wide fixed cost (as in the Plan).  For an option:
 - ``estimate``: shadow prices × amounts — the small-change answer, shown
   beside the re-solve so the difference is visible.
 
+Gains are measured from the plan without options re-solved to ``rel_gap``
+(tighter than a plan's default certificate), so two re-solves are compared
+on the same footing.
+
 The joint pick extends the model of record with one variable per option
 (binary for ``adds``, scale 0..1 for ``adds_up_to``) and solves it exactly
 (:func:`planner.solve.solve_mix`).
