@@ -60,7 +60,7 @@ def main() -> None:
         t.add_column(col, justify="left" if col in ("case", "resource") else "right")
     for r in rows:
         t.add_row(r[0], r[1], r[2], f"{r[3]:.3f}", f"{r[4]:.3f}", f"{r[5]:.1f}×", *(str(x) for x in r[6:]))
-    Console().print(t)
+    Console(width=120).print(t)
 
 
 if __name__ == "__main__":
