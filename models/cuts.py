@@ -14,7 +14,9 @@ perspective y·g(D/y), which are valid for y = 0 and y = 1 alike:
 Because every cut over-estimates g_i, the MILP's optimum (and its dual bound)
 is an upper bound on the true profit; cuts added at the MILP's own volumes
 close the gap (Duran & Grossmann 1986, Math. Programming 36; the perspective
-form after Frangioni & Gentile 2006, Math. Programming 106).  The model is
+form after Frangioni & Gentile 2006, Math. Programming 106).  Capacity
+options enter as in :mod:`models.mix` (their cost and capacity terms are
+linear already).  The model is
 linear, so a persistent LP/MILP interface can take new cuts without a rebuild.
 """
 
@@ -24,13 +26,14 @@ import numpy as np
 import pyomo.environ as pyo
 
 from .data import MixData
-from .mix import _add_capacity, _add_volumes
+from .mix import _add_capacity, _add_options, _add_volumes, option_cost
 
 
 def build_cut_model(d: MixData, integer: bool = True) -> pyo.ConcreteModel:
     """The cut MILP with no cuts yet but the peak cut t_i ≤ max contribution·y_i."""
     m = pyo.ConcreteModel(name="product_mix_cuts")
     y = _add_volumes(m, d, None, integer)
+    _add_options(m, d, None, integer)
     _add_capacity(m, d)
     m.running_of = y  # per product: Pyomo var or the constant 1
     peak = peak_contribution(d)
@@ -40,7 +43,8 @@ def build_cut_model(d: MixData, integer: bool = True) -> pyo.ConcreteModel:
     m.profit = pyo.Objective(
         expr=pyo.quicksum(m.contribution[p] for p in d.products)
         - pyo.quicksum(float(F[k]) * y[k] for k in range(d.n) if F[k] > 0 and not isinstance(y[k], int))
-        - float(sum(F[k] for k in range(d.n) if isinstance(y[k], int))),
+        - float(sum(F[k] for k in range(d.n) if isinstance(y[k], int)))
+        - option_cost(m, d),
         sense=pyo.maximize)
     return m
 

@@ -14,7 +14,13 @@ M_i         minimum run when running                               units
 C_i         market or contract cap (inf if none)                   units
 h_ri        usage of resource r per unit of product i, ≥ 0        resource unit / unit
 H_r         capacity of resource r                                 resource unit
+A_ro        amount option o adds to resource r at full scale      resource unit
+c_o         cost of option o at full scale                         currency
 ==========  =====================================================  =================
+
+Capacity options (optional; none by default): option o adds s_o·A_ro to each
+capacity for a cost c_o·s_o, with s_o ∈ {0, 1} for an all-or-nothing option
+(a shift) and s_o ∈ [0, 1] for one usable in part (overtime, premium material).
 
 Derived here, because they are part of the formulation: the upper bound U_i,
 as tight as every limit allows (for the on/off links of the MILP), a looser
@@ -47,11 +53,22 @@ class MixData:
     use_prod: np.ndarray
     use_amt: np.ndarray
     capacity: np.ndarray
+    options: tuple[str, ...] = ()
+    opt_amount: np.ndarray | None = None  # (options × resources), resource units at full scale
+    opt_cost: np.ndarray | None = None  # currency at full scale
+    opt_whole: np.ndarray | None = None  # True: all or nothing; False: usable in part
     upper: np.ndarray = field(init=False)
     qp_upper: np.ndarray = field(init=False)
     can_stop: np.ndarray = field(init=False)
 
     def __post_init__(self) -> None:
+        k = len(self.options)
+        if self.opt_amount is None:
+            object.__setattr__(self, "opt_amount", np.zeros((k, len(self.resources))))
+        if self.opt_cost is None:
+            object.__setattr__(self, "opt_cost", np.zeros(k))
+        if self.opt_whole is None:
+            object.__setattr__(self, "opt_whole", np.ones(k, dtype=bool))
         object.__setattr__(self, "upper", tight_upper(self))
         object.__setattr__(self, "qp_upper", np.minimum(self.cap, peak_bound(self)))
         stop = ~self.must_run & ((self.F > 0) | (self.min_run > 0))
@@ -87,11 +104,45 @@ class MixData:
         """Contribution (a − v)·D − b·D² of each product (currency), before fixed cost."""
         return self.margin * volume - self.b * volume * volume
 
+    @property
+    def n_options(self) -> int:
+        return len(self.options)
+
+    @property
+    def capacity_reach(self) -> np.ndarray:
+        """Capacity with every option taken in full, H_r + Σ_o A_ro (resource units)."""
+        return self.capacity + self.opt_amount.sum(axis=0)
+
     def with_capacity(self, capacity: np.ndarray) -> "MixData":
         """The same data with other capacities (the bounds are recomputed)."""
         return MixData(self.products, self.resources, self.a, self.b, self.v, self.F, self.committed,
                        self.min_run, self.cap, self.must_run, self.use_res, self.use_prod, self.use_amt,
-                       np.asarray(capacity, dtype=float))
+                       np.asarray(capacity, dtype=float), self.options, self.opt_amount, self.opt_cost,
+                       self.opt_whole)
+
+    def with_options(self, keep: np.ndarray) -> "MixData":
+        """The same data offering only the options where ``keep`` is True."""
+        keep = np.asarray(keep, dtype=bool)
+        return MixData(self.products, self.resources, self.a, self.b, self.v, self.F, self.committed,
+                       self.min_run, self.cap, self.must_run, self.use_res, self.use_prod, self.use_amt,
+                       self.capacity, tuple(o for o, k in zip(self.options, keep) if k),
+                       self.opt_amount[keep], self.opt_cost[keep], self.opt_whole[keep])
+
+    def with_whole_taken(self, taken: np.ndarray) -> "MixData":
+        """All-or-nothing options decided: taken ones added to capacity, all of them removed.
+
+        ``taken`` is one flag per option (flags of partial options are ignored);
+        the partial options stay on offer.  Their fixed cost is not in the data:
+        the caller accounts for it (``whole_cost``).
+        """
+        taken = np.asarray(taken, dtype=bool) & self.opt_whole
+        cap = self.capacity + self.opt_amount[taken].sum(axis=0)
+        return self.with_capacity(cap).with_options(~self.opt_whole)
+
+    def whole_cost(self, taken: np.ndarray) -> float:
+        """Cost of the all-or-nothing options taken (currency)."""
+        taken = np.asarray(taken, dtype=bool) & self.opt_whole
+        return float(self.opt_cost[taken].sum())
 
 
 def peak_bound(d: MixData) -> np.ndarray:
@@ -119,7 +170,7 @@ def tight_upper(d: MixData) -> np.ndarray:
     U_i = min( C_i,
                min over r with h_ri > 0 of (H_r − Σ_{j≠i} h_rj·B_j) / h_ri,
                max(L_i, M_i, (a_i − v_i)/(2 b_i)) if b_i > 0 ).
-    where B_j is the committed floor of product j (see ``committed_floor``).
+    where H_r counts every capacity option taken in full, and B_j is the committed floor of product j (see ``committed_floor``).
     The last term holds because beyond the peak of the contribution, more
     volume lowers profit and uses more of every resource.  If (a − v) ≤ 0 and
     nothing is committed the bound is 0: the product never pays.
@@ -132,7 +183,7 @@ def tight_upper(d: MixData) -> np.ndarray:
     committed_use = d.used(base)
     pos = d.use_amt > 0
     r, i, h = d.use_res[pos], d.use_prod[pos], d.use_amt[pos]
-    room = (d.capacity[r] - committed_use[r] + h * base[i]) / h
+    room = (d.capacity_reach[r] - committed_use[r] + h * base[i]) / h
     res_bound = np.full(n, np.inf)
     np.minimum.at(res_bound, i, room)
     upper = np.minimum(upper, res_bound)

@@ -11,6 +11,15 @@ run: y_i = 1 as a constant).
     \text{volume\_cap}_i: \; & D_i \le U_i y_i \\
     \text{run\_floor}_i: \; & D_i \ge \max(L_i, M_i) \, y_i
 
+With capacity options o (none by default), ``option_scale[o]`` s_o adds
+s_o·A_ro to capacity r for a cost c_o·s_o: s_o ∈ {0, 1} for an
+all-or-nothing option, s_o ∈ [0, 1] for one usable in part:
+
+.. math::
+
+    \max \; \ldots - \sum_o c_o s_o, \qquad
+    \text{capacity}_r: \; \sum_i h_{ri} D_i - \sum_o A_{ro} s_o \le H_r
+
 Revenue a·D − b·D² is the price–demand line p = a − b·D times volume; the
 price follows from the volume.  With ``slate`` given, y is fixed data (the
 model is then a convex QP with bounds only, no integer columns: HiGHS keeps a
@@ -72,15 +81,39 @@ def _add_volumes(m: pyo.ConcreteModel, d: MixData, slate: Sequence[bool] | None,
     return [m.running[p] if d.can_stop[k] else 1 for k, p in enumerate(d.products)]
 
 
+def _add_options(m: pyo.ConcreteModel, d: MixData, slate: Sequence[bool] | None, integer: bool) -> None:
+    """option_scale[o] ∈ {0, 1} (all or nothing) or [0, 1] (usable in part); nothing if no options."""
+    if not d.n_options:
+        return
+    if slate is not None and d.opt_whole.any():
+        raise ValueError("a fixed-slate model takes partial options only: decide the all-or-nothing "
+                         "ones first (MixData.with_whole_taken)")
+    m.O = pyo.Set(initialize=list(d.options), ordered=True)
+    whole = {o: bool(w) for o, w in zip(d.options, d.opt_whole)}
+    m.option_scale = pyo.Var(m.O, bounds=(0.0, 1.0),
+                             domain=lambda m, o: pyo.Binary if (whole[o] and integer) else pyo.Reals)
+
+
+def option_cost(m: pyo.ConcreteModel, d: MixData):
+    """Σ_o c_o·s_o as a Pyomo expression (0 without options)."""
+    if not d.n_options:
+        return 0.0
+    return pyo.quicksum(float(d.opt_cost[k]) * m.option_scale[o] for k, o in enumerate(d.options))
+
+
 def _add_capacity(m: pyo.ConcreteModel, d: MixData) -> None:
-    """capacity[r]: Σ_i h_ri·D_i ≤ H_r (resource units)."""
+    """capacity[r]: Σ_i h_ri·D_i − Σ_o A_ro·s_o ≤ H_r (resource units)."""
     cols = usage_by_resource(d)
     vol = [m.volume[p] for p in d.products]
     exprs = {}
     for r, name in enumerate(d.resources):
         prods, amts = cols[r]
-        exprs[name] = LinearExpression(constant=0.0, linear_coefs=[float(x) for x in amts],
-                                       linear_vars=[vol[k] for k in prods])
+        coefs, varlist = [float(x) for x in amts], [vol[k] for k in prods]
+        for k, o in enumerate(d.options):
+            if d.opt_amount[k, r] != 0:
+                coefs.append(-float(d.opt_amount[k, r]))
+                varlist.append(m.option_scale[o])
+        exprs[name] = LinearExpression(constant=0.0, linear_coefs=coefs, linear_vars=varlist)
     index = {r: k for k, r in enumerate(d.resources)}
     m.capacity = pyo.Constraint(m.R, rule=lambda m, r: (None, exprs[r], float(d.capacity[index[r]])))
 
@@ -89,6 +122,7 @@ def build_mix_model(d: MixData, slate: Sequence[bool] | None = None, integer: bo
     """The mixed-integer QP (or, with ``slate``, the fixed-slate QP) as a Pyomo model."""
     m = pyo.ConcreteModel(name="product_mix")
     y = _add_volumes(m, d, slate, integer)
+    _add_options(m, d, slate, integer)
     _add_capacity(m, d)
     margin, b, F = d.margin, d.b, d.F
     terms = []
@@ -101,8 +135,17 @@ def build_mix_model(d: MixData, slate: Sequence[bool] | None = None, integer: bo
             terms.append(-float(F[k]) * y[k])
     const = float(sum(F[k] for k in range(d.n) if isinstance(y[k], int) and y[k] == 1))
     m.fixed_in_slate = pyo.Param(initialize=const, mutable=False)
+    if d.n_options:
+        terms.append(-option_cost(m, d))
     m.profit = pyo.Objective(expr=pyo.quicksum(terms) - const, sense=pyo.maximize)
     return m
+
+
+def read_option_scale(m: pyo.ConcreteModel, d: MixData) -> np.ndarray:
+    """The model's option scales s_o in option order (0..1); unset counts as 0."""
+    if not d.n_options:
+        return np.zeros(0)
+    return np.array([m.option_scale[o].value or 0.0 for o in d.options], dtype=float)
 
 
 def read_volumes(m: pyo.ConcreteModel, d: MixData) -> np.ndarray:

@@ -22,7 +22,7 @@ console = Console()
 err_console = Console(stderr=True)
 
 #: Modules that add commands to ``main`` when imported (each has ``register(main)``).
-COMMAND_MODULES: list[str] = ["planner.data_cli", "planner.report.cli", "planner.risk.cli"]
+COMMAND_MODULES: list[str] = ["planner.data_cli", "planner.report.cli", "planner.risk.cli", "planner.capacity.cli"]
 
 
 def friendly(func):
@@ -71,10 +71,13 @@ def main() -> None:
 @click.option("--no-standalone", is_flag=True, help="Leave out the standalone economics table.")
 @click.option("--write-model", type=click.Path(path_type=Path), default=None, metavar="PATH.lp",
               help="Write the mixed-integer QP as an LP file with readable names, and stop.")
+@click.option("--choose-options", is_flag=True, help="Also pick the best set of capacity options jointly.")
+@click.option("--no-capacity", is_flag=True, help="Skip the shadow-price ranges and the options' values.")
 @solve_options
 @friendly
 def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_model: Path | None,
-             rel_gap: float, time_limit: float | None, solver: str | None, quiet: bool, debug: bool) -> None:
+             rel_gap: float, time_limit: float | None, solver: str | None, quiet: bool, debug: bool,
+             choose_options: bool = False, no_capacity: bool = False) -> None:
     """Plan the optimal product mix of SCENARIO (YAML, .xlsx workbook or folder of CSV files)."""
     from .api import plan
     from .output import write_text_atomic
@@ -87,11 +90,23 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
         if not quiet:
             console.print(f"model written to {write_model}")
         return
-    p = plan(scenario, rel_gap=rel_gap, time_limit=time_limit, solver=solver)
+    from .loading import load_scenario
+
+    s, warns = load_scenario(scenario)
+    p = plan(s, rel_gap=rel_gap, time_limit=time_limit, solver=solver)
+    p.warnings = list(warns) + p.warnings
+    if not no_capacity:
+        from .capacity.analysis import add_capacity_analysis
+
+        add_capacity_analysis(p, s, choose=choose_options)
     if json_path:
         write_text_atomic(json_path, p.to_json())
     if not quiet:
         print_plan(p, console, standalone=not no_standalone)
+        if not no_capacity:
+            from .capacity.report import print_capacity
+
+            print_capacity(p, console)
         if json_path:
             console.print(f"[dim]plan written to {json_path}[/]")
 

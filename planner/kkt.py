@@ -27,13 +27,23 @@ def polish(d: MixData, slate: np.ndarray, volume: np.ndarray, duals: np.ndarray,
     """(volume, duals) solving the KKT system on the given active set, or None if not exact."""
     lo = np.where(slate, d.run_floor, 0.0)
     hi = np.where(slate, d.qp_upper, 0.0)
-    c, b = d.margin, d.b
+    H = d.usage_dense() if len(d.resources) else np.zeros((0, d.n))
+    return polish_arrays(d.margin, d.b, H, d.capacity, lo, hi, volume, duals, max_system)
+
+
+def polish_arrays(c: np.ndarray, b: np.ndarray, H: np.ndarray, cap: np.ndarray, lo: np.ndarray,
+                  hi: np.ndarray, volume: np.ndarray, duals: np.ndarray,
+                  max_system: int = 3000) -> tuple[np.ndarray, np.ndarray] | None:
+    """The same polish on plain arrays: max Σ c·x − b·x² s.t. H x ≤ cap, lo ≤ x ≤ hi.
+
+    Columns may be other than products (e.g. capacity options, with c the
+    negative cost and H the negative amounts added); (x, λ) or None.
+    """
     scale = np.maximum(np.maximum(np.abs(volume), np.where(np.isfinite(hi), np.abs(hi), 0.0)), 1.0)
     at_lo = volume <= lo + 1e-7 * scale
     at_hi = ~at_lo & (volume >= hi - 1e-7 * scale)
     free = ~at_lo & ~at_hi
     fixed_val = np.where(at_lo, lo, np.where(at_hi, hi, 0.0))
-    H = d.usage_dense() if len(d.resources) else np.zeros((0, d.n))
     lam_scale = max(float(np.max(np.abs(c), initial=1.0)), 1.0)
     active = np.flatnonzero(duals > 1e-9 * lam_scale)
     fq = np.flatnonzero(free & (b > 0))
@@ -42,7 +52,7 @@ def polish(d: MixData, slate: np.ndarray, volume: np.ndarray, duals: np.ndarray,
     if k + m > max_system:
         return None
     HA = H[active]
-    lam = np.zeros(len(d.resources))
+    lam = np.zeros(H.shape[0])
     D = fixed_val.copy()
     if k + m:
         M = np.zeros((k + m, k + m))
@@ -51,7 +61,7 @@ def polish(d: MixData, slate: np.ndarray, volume: np.ndarray, duals: np.ndarray,
         M[:k, :k] = -(HA[:, fq] * inv2b) @ HA[:, fq].T
         M[:k, k:] = HA[:, fl]
         fixed = ~free
-        rhs[:k] = d.capacity[active] - HA[:, fixed] @ fixed_val[fixed] - HA[:, fq] @ (c[fq] * inv2b)
+        rhs[:k] = cap[active] - HA[:, fixed] @ fixed_val[fixed] - HA[:, fq] @ (c[fq] * inv2b)
         M[k:, :k] = HA[:, fl].T
         rhs[k:] = c[fl]
         try:
@@ -61,25 +71,25 @@ def polish(d: MixData, slate: np.ndarray, volume: np.ndarray, duals: np.ndarray,
         lam[active] = x[:k]
         D[fl] = x[k:]
     D[fq] = (c[fq] - H[:, fq].T @ lam) / (2.0 * b[fq])
-    if not _is_kkt(d, H, D, lam, lo, hi, at_lo, at_hi, free, scale, lam_scale):
+    if not _is_kkt(c, b, cap, H, D, lam, lo, hi, at_lo, at_hi, free, scale, lam_scale):
         return None
     return D, lam
 
 
-def _is_kkt(d, H, D, lam, lo, hi, at_lo, at_hi, free, scale, lam_scale) -> bool:
+def _is_kkt(c, b, cap, H, D, lam, lo, hi, at_lo, at_hi, free, scale, lam_scale) -> bool:
     tol_x = 1e-9 * scale
     if np.any(D < lo - tol_x) or np.any(D > hi + tol_x):
         return False
     if np.any(lam < -1e-9 * lam_scale):
         return False
     used = H @ D
-    if np.any(used > d.capacity + 1e-9 * np.maximum(np.abs(d.capacity), 1.0)):
+    if np.any(used > cap + 1e-9 * np.maximum(np.abs(cap), 1.0)):
         return False
-    reduced = d.margin - 2.0 * d.b * D - H.T @ lam  # marginal profit of one more unit
+    reduced = c - 2.0 * b * D - H.T @ lam  # marginal profit of one more unit
     tol_r = 1e-7 * lam_scale
     if np.any(reduced[at_lo & (hi > lo)] > tol_r) or np.any(reduced[at_hi & (hi > lo)] < -tol_r):
         return False
     if np.any(np.abs(reduced[free]) > tol_r):
         return False
-    slack_rows = used < d.capacity - 1e-7 * np.maximum(np.abs(d.capacity), 1.0)
+    slack_rows = used < cap - 1e-7 * np.maximum(np.abs(cap), 1.0)
     return not np.any(lam[slack_rows] > 1e-9 * lam_scale)

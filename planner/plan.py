@@ -49,6 +49,11 @@ class ResourcePlan:
     shadow_price: float  # currency per resource unit, ≥ 0
     binding: bool
     unit: str
+    # Filled by the capacity analysis (planner.capacity); None where not analysed or unbounded.
+    shadow_price_range: list[float | None] | None = None  # [low, high] capacity where the price law holds
+    shadow_price_slope: float | None = None  # dλ/dH on that range (currency per unit²)
+    range_low_reason: str = ""  # why the range ends below
+    range_high_reason: str = ""  # why the range ends above
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)

@@ -19,9 +19,9 @@ from pyomo.contrib.solver.common.factory import SolverFactory
 from pyomo.contrib.solver.common.results import TerminationCondition as TC
 
 from models.data import MixData
-from models.mix import build_mix_model, read_volumes
+from models.mix import build_mix_model, read_option_scale, read_volumes
 
-from .kkt import polish
+from .kkt import polish, polish_arrays
 
 #: Products with a price slope above which the interior-point QP is preferred.
 IPM_FROM = 1500
@@ -39,6 +39,7 @@ class QPResult:
     seconds: float
     method: str
     message: str = ""
+    option_scale: np.ndarray | None = None  # 0..1 per (partial) option of the data, option order
 
 
 def has_ipm() -> bool:
@@ -84,12 +85,35 @@ def solve_slate_qp(d: MixData, slate: np.ndarray, time_limit: float | None = Non
     duals = np.maximum(duals, 0.0)
     volume = np.clip(volume, np.where(slate, d.run_floor, 0.0), np.where(slate, d.qp_upper, 0.0))
     bound = res.objective_bound
-    exact = polish(d, slate, volume, duals)
+    scale = np.clip(read_option_scale(model, d), 0.0, 1.0)
+    if d.n_options:
+        exact = _polish_with_options(d, slate, volume, scale, duals)
+        if exact is not None:
+            volume, scale, duals = exact
+    else:
+        exact = polish(d, slate, volume, duals)
+        if exact is not None:
+            volume, duals = exact
     if exact is not None:
-        volume, duals = exact
         method += "+kkt"
-    objective = float(np.sum(d.contribution(volume)) - np.sum(d.F[slate]))
+    objective = float(np.sum(d.contribution(volume)) - np.sum(d.F[slate]) - d.opt_cost @ scale)
     if exact is not None or bound is None:
         bound = objective  # KKT point of a convex QP: primal and dual objectives agree
     return QPResult("optimal", volume, objective, float(max(bound, objective)), duals,
-                    time.perf_counter() - t0, method)
+                    time.perf_counter() - t0, method, option_scale=scale)
+
+
+def _polish_with_options(d: MixData, slate: np.ndarray, volume: np.ndarray, scale: np.ndarray,
+                         duals: np.ndarray):
+    """KKT polish with the partial options as extra linear columns: margin −c_o, usage −A_ro, 0 ≤ s ≤ 1."""
+    n = d.n
+    c = np.concatenate([d.margin, -d.opt_cost])
+    b = np.concatenate([d.b, np.zeros(d.n_options)])
+    H = np.hstack([d.usage_dense(), -d.opt_amount.T])
+    lo = np.concatenate([np.where(slate, d.run_floor, 0.0), np.zeros(d.n_options)])
+    hi = np.concatenate([np.where(slate, d.qp_upper, 0.0), np.ones(d.n_options)])
+    got = polish_arrays(c, b, H, d.capacity, lo, hi, np.concatenate([volume, scale]), duals)
+    if got is None:
+        return None
+    x, lam = got
+    return x[:n], np.clip(x[n:], 0.0, 1.0), lam

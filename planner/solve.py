@@ -50,6 +50,7 @@ class MixSolution:
     seconds: float = 0.0
     qp_method: str = ""
     messages: list[str] = field(default_factory=list)
+    option_scale: np.ndarray = field(default_factory=lambda: np.zeros(0))  # 0..1 per option of the data
 
     @property
     def gap(self) -> float:
@@ -64,15 +65,16 @@ def relative_gap(bound: float, value: float) -> float:
 def check_commitments(d: MixData, unit_of: dict[str, str] | None = None) -> None:
     """Raise InfeasibleError naming each resource whose commitments exceed its capacity."""
     need = d.used(committed_floor(d))
+    have = d.capacity_reach  # with every capacity option taken in full
     conflicts = []
     for r, name in enumerate(d.resources):
-        if need[r] > d.capacity[r] * (1 + 1e-9) + 1e-9:
+        if need[r] > have[r] * (1 + 1e-9) + 1e-9:
             users = sorted({d.products[k] for k, rr in zip(d.use_prod, d.use_res)
                             if rr == r and committed_floor(d)[k] > 0})
             unit = f" {unit_of.get(name, '')}" if unit_of else ""
             conflicts.append(f"committed volumes of {', '.join(users)} need {need[r]:,.6g}{unit} "
-                             f"of {name}; it has {d.capacity[r]:,.6g}{unit} "
-                             f"(short by {need[r] - d.capacity[r]:,.6g}{unit})")
+                             f"of {name}; it has {have[r]:,.6g}{unit} "
+                             f"(short by {need[r] - have[r]:,.6g}{unit})")
     if conflicts:
         raise InfeasibleError(conflicts)
 
@@ -84,7 +86,7 @@ def solve_mix(d: MixData, rel_gap: float = DEFAULT_GAP, time_limit: float | None
     check_commitments(d)
     if solver:
         sol = _solve_other(d, solver, rel_gap, time_limit, threads, seed)
-    elif not d.can_stop.any():
+    elif not d.can_stop.any() and not d.opt_whole.any():
         qp = solve_slate_qp(d, np.ones(d.n, dtype=bool), time_limit, threads, seed)
         _raise_on(qp)
         if qp.status == "time_limit":
@@ -103,8 +105,9 @@ def _raise_on(qp: QPResult) -> None:
 
 
 def _from_qp(qp: QPResult, slate: np.ndarray, strategy: str, bound: float, rounds: int = 0) -> MixSolution:
+    scale = qp.option_scale if qp.option_scale is not None else np.zeros(0)
     return MixSolution(qp.status, qp.volume, slate.copy(), qp.objective, max(bound, qp.objective), qp.duals,
-                       strategy, rounds, qp_method=qp.method)
+                       strategy, rounds, qp_method=qp.method, option_scale=scale)
 
 
 def _initial_points(d: MixData) -> tuple[np.ndarray, np.ndarray]:
@@ -128,14 +131,36 @@ class _Slates:
         self.seen: dict[bytes, QPResult] = {}
         self.best: tuple[QPResult, np.ndarray] | None = None
 
-    def evaluate(self, slate: np.ndarray, time_limit: float | None) -> QPResult:
+    def evaluate(self, slate: np.ndarray, time_limit: float | None, taken: np.ndarray | None = None) -> QPResult:
         key = np.packbits(slate).tobytes()
+        if taken is not None and taken.size:
+            key += b"|" + np.packbits(taken).tobytes()
         if key not in self.seen:
-            qp = solve_slate_qp(self.d, slate, time_limit, self.threads, self.seed)
+            if taken is not None and self.d.n_options:
+                qp = _solve_with_options(self.d, slate, taken, time_limit, self.threads, self.seed)
+            else:
+                qp = solve_slate_qp(self.d, slate, time_limit, self.threads, self.seed)
             self.seen[key] = qp
             if qp.status == "optimal" and (self.best is None or qp.objective > self.best[0].objective):
                 self.best = (qp, slate.copy())
         return self.seen[key]
+
+
+def _solve_with_options(d: MixData, slate: np.ndarray, taken: np.ndarray, time_limit: float | None,
+                        threads: int, seed: int) -> QPResult:
+    """Fixed slate and all-or-nothing options decided: the QP with the partial options free.
+
+    The result's option_scale covers every option of ``d`` (1/0 for the
+    all-or-nothing ones) and its objective is net of every option's cost.
+    """
+    from dataclasses import replace
+
+    qp = solve_slate_qp(d.with_whole_taken(taken), slate, time_limit, threads, seed)
+    scale = np.where(taken & d.opt_whole, 1.0, 0.0)
+    if qp.option_scale is not None:
+        scale[~d.opt_whole] = qp.option_scale
+    return replace(qp, objective=qp.objective - d.whole_cost(taken), bound=qp.bound - d.whole_cost(taken),
+                   option_scale=scale)
 
 
 def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
@@ -186,8 +211,15 @@ def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
         t = np.array([m.contribution[p].value or 0.0 for p in d.products])
         slate = np.ones(d.n, dtype=bool)
         slate[free_idx] = np.array([(v.value or 0.0) > 0.5 for v in free], dtype=bool)
+        taken = None
+        if d.n_options:
+            taken = np.array([(m.option_scale[o].value or 0.0) > 0.5 for o in d.options]) & d.opt_whole
         left = None if deadline is None else max(deadline - time.perf_counter(), 0.01)
-        slates.evaluate(slate, left)
+        qp_here = slates.evaluate(slate, left, taken)
+        if qp_here.status == "optimal":  # cuts at the slate's own optimum too (Duran & Grossmann)
+            x = qp_here.volume  # (a flat tangent at a product's peak is already among the first cuts)
+            at = np.flatnonzero(slate & (d.b > 0) & (x > 0) & (np.abs(d.margin - 2 * d.b * x) > 1e-9 * np.abs(d.margin)))
+            add_cuts(m, d, at, qp_here.volume[at])
         if tc == ATC.maxTimeLimit:
             status = "time_limit"
             break
@@ -259,7 +291,11 @@ def _solve_other(d: MixData, name: str, rel_gap: float, time_limit: float | None
         bound = float(ub)
     except (TypeError, ValueError):
         bound = np.inf
-    qp = solve_slate_qp(d, slate, None, threads, seed)
+    if d.n_options:
+        taken = np.array([(m.option_scale[o].value or 0.0) > 0.5 for o in d.options]) & d.opt_whole
+        qp = _solve_with_options(d, slate, taken, None, threads, seed)
+    else:
+        qp = solve_slate_qp(d, slate, None, threads, seed)
     _raise_on(qp)
     solved = "optimal" in tc.lower()
     sol = _from_qp(qp, slate, f"solver:{name}", bound if np.isfinite(bound) else qp.objective)

@@ -1,0 +1,48 @@
+"""The capacity analysis added to a Plan: ranges on its resources, options in its extras."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import PlannerError
+from ..plan import Plan
+from ..prepare import mix_data
+from ..qp import solve_slate_qp
+from ..schema import Scenario
+from .options import choose_options, value_options
+from .ranging import resource_ranges
+
+
+def plan_slate(p: Plan, can_stop: np.ndarray) -> np.ndarray:
+    """The plan's slate as the fixed-slate QP needs it (products without a choice always 'on')."""
+    return np.array([x.running for x in p.products], dtype=bool) | ~can_stop
+
+
+def add_capacity_analysis(p: Plan, s: Scenario, choose: bool = False, rel_gap: float = 1e-7) -> Plan:
+    """Fill each resource's shadow-price range and the options' values (and the joint pick) in ``p``.
+
+    Ranges: ``shadow_price_range`` [low, high] (None for no end), ``shadow_price_slope``
+    and the reasons; ``p.extras['options']`` one entry per option; with ``choose``,
+    ``p.extras['option_pick']``.  Returns ``p``.
+    """
+    try:
+        return _analyse(p, s, choose, rel_gap)
+    except PlannerError as e:  # the plan itself stands; say what is missing and why
+        p.warnings.append(f"capacity analysis not done: {e}")
+        return p
+
+
+def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float) -> Plan:
+    d = mix_data(s)
+    slate = plan_slate(p, d.can_stop)
+    qp = solve_slate_qp(d, slate)
+    duals = qp.duals if qp.status == "optimal" else np.array([r.shadow_price for r in p.resources])
+    for rp, rg in zip(p.resources, resource_ranges(d, slate)):
+        rp.shadow_price_range = [rg.low, rg.high]
+        rp.shadow_price_slope = rg.slope
+        rp.range_low_reason, rp.range_high_reason = rg.why_low, rg.why_high
+    base, values = value_options(s, d, slate, duals, rel_gap)
+    p.extras["options"] = [v.to_dict() for v in values]
+    if choose and s.options:
+        p.extras["option_pick"] = choose_options(s, d, base, slate, rel_gap)
+    return p
