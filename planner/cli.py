@@ -103,10 +103,6 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
         write_text_atomic(json_path, p.to_json())
     if not quiet:
         print_plan(p, console, standalone=not no_standalone)
-        if not no_capacity:
-            from .capacity.report import print_capacity
-
-            print_capacity(p, console)
         if json_path:
             console.print(f"[dim]plan written to {json_path}[/]")
 

@@ -155,6 +155,10 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True)
             con.print(f"Bottleneck: [bold]{escape(top.name)}[/] — one more {escape(top.unit or 'unit')} is worth "
                       f"{money(top.shadow_price, p.currency, 2)} of profit (for a small change; re-solve for a shift).")
         con.print()
+    if any(getattr(r, "shadow_price_range", None) is not None for r in p.resources) or p.extras.get("options"):
+        from .capacity.report import print_capacity
+
+        print_capacity(p, con)
     if standalone:
         con.print(standalone_table(p, con))
         con.print()

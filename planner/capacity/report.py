@@ -3,10 +3,11 @@
 from __future__ import annotations
 
 from rich.console import Console
+from rich.markup import escape
 from rich.table import Table
 
-from ..plan import LABOUR_NOTE, Plan
-from ..terminal import money, qty
+from ..plan import Plan
+from ..terminal import _table, money, qty
 
 
 def _cap(x: float | None, unit: str) -> str:
@@ -16,8 +17,7 @@ def _cap(x: float | None, unit: str) -> str:
 def ranges_table(p: Plan) -> Table:
     """Shadow price, its rate of change and the capacity range of each binding resource."""
     c = p.currency
-    t = Table(title="Shadow prices and their ranges", title_justify="left", show_edge=False, pad_edge=False,
-              header_style="bold")
+    t = _table("Shadow prices and their ranges")
     for col in ("resource", "shadow price", "change per unit", "holds from", "to"):
         t.add_column(col, justify="left" if col == "resource" else "right", no_wrap=col != "resource")
     for r in p.resources:
@@ -25,7 +25,7 @@ def ranges_table(p: Plan) -> Table:
             continue
         lo, hi = r.shadow_price_range
         slope = f"{r.shadow_price_slope:+,.4g}" if r.shadow_price_slope else "0"
-        t.add_row(r.name, f"{c}{r.shadow_price:,.2f}/{r.unit or 'unit'}", slope, _cap(lo, r.unit), _cap(hi, r.unit))
+        t.add_row(escape(r.name), f"{money(r.shadow_price, c, 2)}/{escape(r.unit or 'unit')}", slope, _cap(lo, r.unit), _cap(hi, r.unit))
     return t
 
 
@@ -53,13 +53,12 @@ def range_notes(p: Plan) -> list[str]:
 def options_table(p: Plan) -> Table:
     """Each option valued on its own by re-solving, beside the shadow-price estimate."""
     c = p.currency
-    t = Table(title="Capacity options, each on its own (re-solved)", title_justify="left", show_edge=False,
-              pad_edge=False, header_style="bold")
+    t = _table("Capacity options, each on its own (re-solved)")
     for col in ("option", "cost", "gain", "net gain", "break-even", "λ×amount"):
         t.add_column(col, justify="left" if col == "option" else "right", overflow="fold",
                      no_wrap=col != "option")
     for o in p.extras.get("options", []):
-        name = o["name"]
+        name = escape(o["name"])
         if o["kind"] == "part":
             name += f" ({100 * o['used']:.3g}% used)"
         be = money(o["break_even_cost"], c)
@@ -70,18 +69,18 @@ def options_table(p: Plan) -> Table:
 
 
 def print_capacity(p: Plan, console: Console) -> None:
-    """Print the ranges, the options and the joint pick (if any), with the labour caution."""
+    """Print the ranges, the options and the joint pick (if any); print_plan adds the labour caution."""
     if any(r.shadow_price_range is not None for r in p.resources):
         if any(r.shadow_price > 0 for r in p.resources):
             console.print(ranges_table(p))
         for line in range_notes(p):
-            console.print(line)
+            console.print(escape(line))
         console.print()
     if p.extras.get("options"):
         console.print(options_table(p))
         for o in p.extras["options"]:
             if o["slate_change"]:
-                console.print(f"{o['name']} changes the slate: {o['slate_change']}")
+                console.print(escape(f"{o['name']} changes the slate: {o['slate_change']}"))
         console.print("[dim]gain: profit with the option less profit without, before its cost; break-even: "
                       "the cost at which all of it just pays; λ×amount: shadow price × amount, the "
                       "small-change estimate.[/]")
@@ -93,5 +92,4 @@ def print_capacity(p: Plan, console: Console) -> None:
                           f"{money(pick['profit'], c)} after their cost {money(pick['cost'], c)}, "
                           f"net gain {money(pick['net_gain'], c)}"
                           + (f"; slate: {pick['slate_change']}" if pick["slate_change"] else ""))
-        console.print(f"[dim]{LABOUR_NOTE}[/]")
         console.print()
