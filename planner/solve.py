@@ -28,6 +28,7 @@ from models.cuts import add_cuts, build_cut_model
 from models.data import MixData, committed_floor
 from models.mix import build_mix_model
 
+from . import fastroute
 from .errors import InfeasibleError, SolverError
 from .qp import QPResult, solve_slate_qp
 
@@ -50,6 +51,7 @@ class MixSolution:
     seconds: float = 0.0
     qp_method: str = ""
     messages: list[str] = field(default_factory=list)
+    dual_steps: int = 0  # multiplier steps of the Lagrangian bound (fast route)
 
     @property
     def gap(self) -> float:
@@ -82,7 +84,12 @@ def solve_mix(d: MixData, rel_gap: float = DEFAULT_GAP, time_limit: float | None
     """Solve the mix exactly to ``rel_gap``; see the module docstring for the routes."""
     t0 = time.perf_counter()
     check_commitments(d)
-    if solver:
+    fast = None
+    if not solver and fastroute.applies(d):
+        fast = fastroute.solve_fast(d, rel_gap, time_limit, threads, seed)
+    if fast is not None:
+        sol = fast
+    elif solver:
         sol = _solve_other(d, solver, rel_gap, time_limit, threads, seed)
     elif not d.can_stop.any():
         qp = solve_slate_qp(d, np.ones(d.n, dtype=bool), time_limit, threads, seed)
