@@ -11,7 +11,7 @@ running products S,
 Stopped products are left out (volume 0).  HiGHS minimises, so it gets the
 negated objective with Hessian diag(2 b_i) (HiGHS's ½ xᵀQx convention).
 Small slates use HiGHS's active-set QP; from ``FAST_IPM_FROM`` running products
-price slope its interior-point QP ('hipo', highspy-extras), which stays fast
+its interior-point QP ('hipo', highspy-extras), which stays fast
 with thousands of products strictly inside their bounds.  Either answer is
 then polished on its active set by the closed-form KKT conditions
 (:mod:`planner.kkt`), which makes it exact to rounding and is checked before

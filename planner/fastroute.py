@@ -124,11 +124,12 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
         dual = more
     messages = [f"Lagrangian bound after {steps} multiplier steps"]
     if slates.best is not None and gap_of(bound, slates.value) <= rel_gap:
-        return _solution(MixSolution, slates, bound, "lagrangian", 0, "optimal", messages, steps)
+        return _solution(MixSolution, slates, bound, "lagrangian", 0, "optimal", messages, steps, dual.best.lam)
     if deadline is not None and time.perf_counter() >= deadline:
         if slates.best is None:
             return None
-        return _solution(MixSolution, slates, bound, "lagrangian", 0, "time_limit", messages, steps)
+        return _solution(MixSolution, slates, bound, "lagrangian", 0, "time_limit", messages, steps,
+                         dual.best.lam)
     # 3. the tangent-cut MILP where the gap is still open
     from .fastcuts import CutMilp
     from .solve import _initial_points
@@ -199,7 +200,7 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
     if slates.best is None or status == "error":
         return None
     messages.append(f"tangent-cut MILP: {rounds} rounds, {milp.ncuts} cuts")
-    sol = _solution(MixSolution, slates, bound, "lagrangian+cuts", rounds, status, messages, steps)
+    sol = _solution(MixSolution, slates, bound, "lagrangian+cuts", rounds, status, messages, steps, dual.best.lam)
     if sol.status == "optimal" and sol.gap > rel_gap:
         return None  # not certified here: the general route decides
     return sol
@@ -213,9 +214,10 @@ def _try_slates(slates: _Slates, points: list[DualPoint], left) -> None:
 
 
 def _solution(cls, slates: _Slates, bound: float, strategy: str, rounds: int, status: str,
-              messages: list[str], steps: int):
+              messages: list[str], steps: int, lam: np.ndarray | None = None):
     qp, slate = slates.best
     sol = cls(status, qp.volume, slate.copy(), qp.objective, max(bound, qp.objective), qp.duals, strategy,
               rounds, qp_method=qp.method, messages=messages)
     sol.dual_steps = steps
+    sol.multipliers = lam
     return sol

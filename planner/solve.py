@@ -22,11 +22,8 @@ import time
 from dataclasses import dataclass, field
 
 import numpy as np
-import pyomo.environ as pyo
 
-from models.cuts import add_cuts, build_cut_model
 from models.data import MixData, committed_floor
-from models.mix import build_mix_model
 
 from . import fastroute
 from .errors import InfeasibleError, SolverError
@@ -52,6 +49,7 @@ class MixSolution:
     qp_method: str = ""
     messages: list[str] = field(default_factory=list)
     dual_steps: int = 0  # multiplier steps of the Lagrangian bound (fast route)
+    multipliers: np.ndarray | None = None  # currency per resource unit: the best Lagrangian λ (fast route)
 
     @property
     def gap(self) -> float:
@@ -144,8 +142,11 @@ class _Slates:
 
 def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
                          threads: int, seed: int, max_rounds: int = 500) -> MixSolution:
+    import pyomo.environ  # noqa: F401  (Pyomo is imported only where a route needs it: start-up time)
     from pyomo.contrib.appsi.base import TerminationCondition as ATC
     from pyomo.contrib.appsi.solvers import Highs
+
+    from models.cuts import add_cuts, build_cut_model
 
     deadline = None if time_limit is None else time.perf_counter() + time_limit
     m = build_cut_model(d)
@@ -214,6 +215,10 @@ def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
 def _solve_other(d: MixData, name: str, rel_gap: float, time_limit: float | None,
                  threads: int, seed: int) -> MixSolution:
     """Hand the mixed-integer QP to another Pyomo solver; re-solve its slate with HiGHS."""
+    import pyomo.environ as pyo
+
+    from models.mix import build_mix_model
+
     if name == "scip" and not pyo.SolverFactory("scip").available(exception_flag=False):
         name = "scip_direct"  # SCIP through pyscipopt when no scip executable is on the PATH
     try:
