@@ -124,12 +124,13 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
         dual = more
     messages = [f"Lagrangian bound after {steps} multiplier steps"]
     if slates.best is not None and gap_of(bound, slates.value) <= rel_gap:
-        return _solution(MixSolution, slates, bound, "lagrangian", 0, "optimal", messages, steps, dual.best.lam)
+        return _solution(MixSolution, slates, bound, "lagrangian", 0, "optimal", messages, steps, dual.best.lam,
+                         [p.lam for p in dual.points])
     if deadline is not None and time.perf_counter() >= deadline:
         if slates.best is None:
             return None
         return _solution(MixSolution, slates, bound, "lagrangian", 0, "time_limit", messages, steps,
-                         dual.best.lam)
+                         dual.best.lam, [p.lam for p in dual.points])
     # 3. the tangent-cut MILP where the gap is still open
     from .fastcuts import CutMilp
     from .solve import _initial_points
@@ -200,7 +201,8 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
     if slates.best is None or status == "error":
         return None
     messages.append(f"tangent-cut MILP: {rounds} rounds, {milp.ncuts} cuts")
-    sol = _solution(MixSolution, slates, bound, "lagrangian+cuts", rounds, status, messages, steps, dual.best.lam)
+    sol = _solution(MixSolution, slates, bound, "lagrangian+cuts", rounds, status, messages, steps, dual.best.lam,
+                    [p.lam for p in dual.points])
     if sol.status == "optimal" and sol.gap > rel_gap:
         return None  # not certified here: the general route decides
     return sol
@@ -214,10 +216,11 @@ def _try_slates(slates: _Slates, points: list[DualPoint], left) -> None:
 
 
 def _solution(cls, slates: _Slates, bound: float, strategy: str, rounds: int, status: str,
-              messages: list[str], steps: int, lam: np.ndarray | None = None):
+              messages: list[str], steps: int, lam: np.ndarray | None = None, tried: list | None = None):
     qp, slate = slates.best
     sol = cls(status, qp.volume, slate.copy(), qp.objective, max(bound, qp.objective), qp.duals, strategy,
               rounds, qp_method=qp.method, messages=messages)
     sol.dual_steps = steps
     sol.multipliers = lam
+    sol.multipliers_tried = tried
     return sol

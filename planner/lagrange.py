@@ -38,6 +38,8 @@ import numpy as np
 from models.data import MixData
 
 _INF = 1e30
+#: Most recent points kept in the cutting-plane model (with the best one): bounds the LP and QP size.
+BUNDLE_SIZE = 80
 
 
 @dataclass
@@ -141,8 +143,11 @@ def minimise_dual(d: MixData, rel_tol: float = 1e-6, max_steps: int = 300, start
         if best.value <= target or (deadline is not None and time.perf_counter() > deadline):
             break
         steps += 1
-        G = np.array([p.grad for p in points])
-        f0 = np.array([p.value - p.grad @ p.lam for p in points])  # model: f0_j + G_j·λ
+        model = points[-BUNDLE_SIZE:]
+        if not any(p is best for p in model):
+            model = model + [best]
+        G = np.array([p.grad for p in model])
+        f0 = np.array([p.value - p.grad @ p.lam for p in model])  # model: f0_j + G_j·λ
         low = _model_min(G, f0, box)
         if low is None:
             break

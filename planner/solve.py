@@ -50,6 +50,7 @@ class MixSolution:
     messages: list[str] = field(default_factory=list)
     dual_steps: int = 0  # multiplier steps of the Lagrangian bound (fast route)
     multipliers: np.ndarray | None = None  # currency per resource unit: the best Lagrangian λ (fast route)
+    multipliers_tried: list = field(default_factory=list)  # every λ the bundle evaluated (warm starts)
 
     @property
     def gap(self) -> float:

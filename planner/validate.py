@@ -118,8 +118,9 @@ def _cross_problems(raw: dict[str, Any]) -> list[Problem]:
             if count > 1:
                 problems.append(Problem(f"{section}[{name}]", f"name used {count} times", "names must be unique"))
     resources = set(_names(raw, "resources"))
-    for i, p in enumerate(_entries(raw, "products")):
-        label = _label({"products": _entries(raw, "products")}, "products", i)
+    products = {"products": _entries(raw, "products")}  # once: a list per product made this O(n²)
+    for i, p in enumerate(products["products"]):
+        label = _label(products, "products", i)
         usage = p.get("usage")
         if isinstance(usage, dict):
             for res in usage:

@@ -137,7 +137,8 @@ def sweep_side(s, d, sol, points: int = 25) -> dict:
         cap = d.capacity.copy()
         cap[r] *= 1.0 + 0.5 * k / (points - 1)
         dk = d.with_capacity(cap)
-        start = [x for x in (prev.multipliers, prev.duals) if x is not None]
+        # the previous plan's multipliers, re-evaluated at the new capacity, seed the bundle
+        start = list(prev.multipliers_tried[-10:]) + [prev.duals]
         got = solve_fast(dk, GAP, start=start)
         build_plan(s, dk, got)
         worst = max(worst, got.gap)
