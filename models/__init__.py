@@ -1,7 +1,21 @@
-"""The product-mix formulation: validated arrays in, Pyomo models out (no I/O)."""
+"""The product-mix formulation: validated arrays in, Pyomo models out (no I/O).
 
-from .cuts import add_cuts, build_cut_model
+The Pyomo builders are imported on first use, so that reading the arrays
+(``models.data``) does not pay Pyomo's import time.
+"""
+
 from .data import MixData
-from .mix import build_mix_model
 
 __all__ = ["MixData", "build_mix_model", "build_cut_model", "add_cuts"]
+
+
+def __getattr__(name: str):
+    if name in ("build_cut_model", "add_cuts"):
+        from . import cuts
+
+        return getattr(cuts, name)
+    if name == "build_mix_model":
+        from .mix import build_mix_model
+
+        return build_mix_model
+    raise AttributeError(f"module 'models' has no attribute {name!r}")

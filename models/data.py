@@ -90,15 +90,14 @@ class MixData:
 
     def usage_dense(self) -> np.ndarray:
         """Usage as a dense (resources × products) array; for small models and tests."""
-        out = np.zeros((len(self.resources), self.n))
-        np.add.at(out, (self.use_res, self.use_prod), self.use_amt)
-        return out
+        m = len(self.resources)
+        flat = np.bincount(self.use_res * self.n + self.use_prod, weights=self.use_amt, minlength=m * self.n)
+        return flat.astype(float).reshape(m, self.n)
 
     def used(self, volume: np.ndarray) -> np.ndarray:
         """Amount of each resource used by the volumes Σ_i h_ri·D_i (resource units)."""
-        out = np.zeros(len(self.resources))
-        np.add.at(out, self.use_res, self.use_amt * volume[self.use_prod])
-        return out
+        return np.bincount(self.use_res, weights=self.use_amt * volume[self.use_prod],
+                           minlength=len(self.resources)).astype(float)
 
     def contribution(self, volume: np.ndarray) -> np.ndarray:
         """Contribution (a − v)·D − b·D² of each product (currency), before fixed cost."""

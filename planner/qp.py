@@ -14,12 +14,8 @@ import time
 from dataclasses import dataclass
 
 import numpy as np
-import pyomo.environ as pyo  # noqa: F401  (import pyomo.environ before contrib.solver)
-from pyomo.contrib.solver.common.factory import SolverFactory
-from pyomo.contrib.solver.common.results import TerminationCondition as TC
 
 from models.data import MixData
-from models.mix import build_mix_model, read_option_scale, read_volumes
 
 from .kkt import polish, polish_arrays
 
@@ -54,6 +50,12 @@ def has_ipm() -> bool:
 def solve_slate_qp(d: MixData, slate: np.ndarray, time_limit: float | None = None,
                    threads: int = 1, seed: int = 0) -> QPResult:
     """Solve the mix QP with the running slate fixed; volumes, objective and duals."""
+    import pyomo.environ  # noqa: F401  (before contrib.solver; imported here, not at start-up)
+    from pyomo.contrib.solver.common.factory import SolverFactory
+    from pyomo.contrib.solver.common.results import TerminationCondition as TC
+
+    from models.mix import build_mix_model, read_option_scale, read_volumes
+
     t0 = time.perf_counter()
     slate = np.asarray(slate, dtype=bool)
     model = build_mix_model(d, slate=slate)

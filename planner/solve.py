@@ -22,12 +22,10 @@ import time
 from dataclasses import dataclass, field
 
 import numpy as np
-import pyomo.environ as pyo
 
-from models.cuts import add_cuts, build_cut_model
 from models.data import MixData, committed_floor
-from models.mix import build_mix_model
 
+from . import fastroute
 from .errors import InfeasibleError, SolverError
 from .qp import QPResult, solve_slate_qp
 
@@ -51,6 +49,9 @@ class MixSolution:
     qp_method: str = ""
     messages: list[str] = field(default_factory=list)
     option_scale: np.ndarray = field(default_factory=lambda: np.zeros(0))  # 0..1 per option of the data
+    dual_steps: int = 0  # multiplier steps of the Lagrangian bound (fast route)
+    multipliers: np.ndarray | None = None  # currency per resource unit: the best Lagrangian λ (fast route)
+    multipliers_tried: list = field(default_factory=list)  # every λ the bundle evaluated (warm starts)
 
     @property
     def gap(self) -> float:
@@ -84,7 +85,12 @@ def solve_mix(d: MixData, rel_gap: float = DEFAULT_GAP, time_limit: float | None
     """Solve the mix exactly to ``rel_gap``; see the module docstring for the routes."""
     t0 = time.perf_counter()
     check_commitments(d)
-    if solver:
+    fast = None
+    if not solver and fastroute.applies(d):
+        fast = fastroute.solve_fast(d, rel_gap, time_limit, threads, seed)
+    if fast is not None:
+        sol = fast
+    elif solver:
         sol = _solve_other(d, solver, rel_gap, time_limit, threads, seed)
     elif not d.can_stop.any() and not d.opt_whole.any():
         qp = solve_slate_qp(d, np.ones(d.n, dtype=bool), time_limit, threads, seed)
@@ -165,8 +171,11 @@ def _solve_with_options(d: MixData, slate: np.ndarray, taken: np.ndarray, time_l
 
 def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
                          threads: int, seed: int, max_rounds: int = 500) -> MixSolution:
+    import pyomo.environ  # noqa: F401  (Pyomo is imported only where a route needs it: start-up time)
     from pyomo.contrib.appsi.base import TerminationCondition as ATC
     from pyomo.contrib.appsi.solvers import Highs
+
+    from models.cuts import add_cuts, build_cut_model
 
     deadline = None if time_limit is None else time.perf_counter() + time_limit
     m = build_cut_model(d)
@@ -263,6 +272,10 @@ def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
 def _solve_other(d: MixData, name: str, rel_gap: float, time_limit: float | None,
                  threads: int, seed: int) -> MixSolution:
     """Hand the mixed-integer QP to another Pyomo solver; re-solve its slate with HiGHS."""
+    import pyomo.environ as pyo
+
+    from models.mix import build_mix_model
+
     if name == "scip" and not pyo.SolverFactory("scip").available(exception_flag=False):
         name = "scip_direct"  # SCIP through pyscipopt when no scip executable is on the PATH
     try:

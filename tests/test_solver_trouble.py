@@ -54,6 +54,9 @@ def test_time_limit_through_the_cli(hard, tmp_path):
 def test_missing_highs_names_what_to_install(monkeypatch, tmp_path):
     from pyomo.contrib.appsi.solvers import Highs
 
+    import planner.fastroute
+
+    monkeypatch.setattr(planner.fastroute, "applies", lambda d: False)  # the general (Pyomo) route
     monkeypatch.setattr(Highs, "available", lambda self: False)
     f = tmp_path / "s.yaml"
     f.write_text(yaml.safe_dump(tiny(fixed_cost=100.0)))  # an on/off choice: the cut MILP is used
@@ -63,13 +66,16 @@ def test_missing_highs_names_what_to_install(monkeypatch, tmp_path):
 
 
 def test_failing_qp_names_what_to_install(monkeypatch):
-    import planner.qp as qp
+    import pyomo.contrib.solver.common.factory as factory
+
+    import planner.fastroute
 
     class Broken:
         def solve(self, *a, **k):
             raise RuntimeError("library not loaded")
 
-    monkeypatch.setattr(qp, "SolverFactory", lambda name: Broken())
+    monkeypatch.setattr(planner.fastroute, "applies", lambda d: False)  # the general (Pyomo) route
+    monkeypatch.setattr(factory, "SolverFactory", lambda name: Broken())
     with pytest.raises(SolverError, match=r"library not loaded \(reinstall highspy: pip install 'highspy==1.15.1'\)"):
         plan(validate_scenario(tiny())[0])
 

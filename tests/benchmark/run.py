@@ -1,0 +1,233 @@
+"""Speed benchmark: the planner at catalogue sizes, side by side with SCIP (not run by pytest).
+
+    python -m tests.benchmark.run                 # every case; table on screen, JSON to benchmark.json
+    python -m tests.benchmark.run --quick         # the small cases only
+    python -m tests.benchmark.run --scip-cap 600  # longest SCIP run allowed (seconds)
+
+For each seeded scenario (:func:`planner.synth.synthetic_scenario`, written
+to YAML first, untimed) it records
+
+- the wall time and peak memory (ru_maxrss of the child) of the whole
+  ``planner plan FILE --json OUT`` command in a fresh process: start-up,
+  reading, validation, model build, solve and writing the plan;
+- the same stages timed one by one in this process (read, validate, build
+  the arrays, solve, assemble and write the plan), the route taken, multiplier
+  steps, cut rounds and the certified gap;
+- SCIP (pyscipopt) on the same mixed-integer QP to the same gap, capped at
+  min(100 × our solve time, --scip-cap) and reported "not reached" if capped;
+- for ≤ 12 products, exhaustive slate enumeration (every on/off slate a QP);
+- a 25-point capacity sweep (re-solves with the arrays and multipliers reused);
+- the growth exponent of time from 1,000 to 10,000 products.
+
+Ratios are the headline; absolute seconds are beside them.  Timings are of
+the machine it runs on: say which when quoting them.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import os
+import platform
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+import yaml
+
+ROOT = Path(__file__).resolve().parents[2]
+GAP = 1e-4
+
+#: (key, products, limits, fixed costs, density, target text)
+CASES = [
+    ("50x10-near", 50, 10, "near", 0.25, "whole command <= 2 s"),
+    ("200x10-near", 200, 10, "near", 0.25, ">= 100x faster than SCIP"),
+    ("12x4-near", 12, 4, "near", 0.5, "agrees with enumeration"),
+    ("1000x20-some", 1000, 20, "some", 0.25, "whole command <= 2 s"),
+    ("10000x20-some", 10000, 20, "some", 0.25, "growth 1,000 -> 10,000 <= n^1.2"),
+    ("10000x50-some", 10000, 50, "some", 0.5, "<= 20 s, <= 2 GiB"),
+    ("10000x50-none", 10000, 50, "none", 0.5, "continuous, exact, <= 5 s"),
+]
+QUICK = {"50x10-near", "12x4-near", "1000x20-some"}
+
+
+def write_scenario(folder: Path, key: str, n: int, m: int, fixed: str, density: float) -> Path:
+    from planner.synth import synthetic_scenario
+
+    path = folder / f"{key}.yaml"
+    raw = synthetic_scenario(n, m, seed=1, fixed_costs=fixed, density=density)
+    with open(path, "w") as f:
+        yaml.dump(raw, f, Dumper=getattr(yaml, "CSafeDumper", yaml.SafeDumper), sort_keys=False)
+    return path
+
+
+def whole_command(path: Path, out: Path) -> dict:
+    """Wall time and peak memory of `planner plan` as a fresh process (threads as shipped)."""
+    cmd = [sys.executable, "-m", "planner.cli", "plan", str(path), "--json", str(out), "--quiet"]
+    t0 = time.perf_counter()
+    proc = subprocess.Popen(cmd, cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    _, status, usage = os.wait4(proc.pid, 0)
+    wall = time.perf_counter() - t0
+    proc.returncode = os.waitstatus_to_exitcode(status)
+    err = proc.stderr.read().decode() if proc.stderr else ""
+    plan = json.loads(out.read_text()) if out.exists() else {}
+    return {"seconds": wall, "cpu_seconds": usage.ru_utime + usage.ru_stime, "load_average": os.getloadavg()[0],
+            "peak_mib": usage.ru_maxrss / 1024.0, "exit": proc.returncode,
+            "status": plan.get("status"), "gap": plan.get("gap"), "error": err.strip()[-300:]}
+
+
+def stages(path: Path) -> tuple[dict, object, object, object]:
+    """Each stage timed in this process; returns (timings, scenario, data, solution)."""
+    from planner.api import build_plan
+    from planner.loading import read_raw
+    from planner.prepare import mix_data
+    from planner.solve import solve_mix
+    from planner.validate import validate_scenario
+
+    t = [time.perf_counter()]
+    raw = read_raw(path)
+    t.append(time.perf_counter())
+    s, warnings = validate_scenario(raw, source=str(path))
+    t.append(time.perf_counter())
+    d = mix_data(s)
+    t.append(time.perf_counter())
+    sol = solve_mix(d, rel_gap=GAP)
+    t.append(time.perf_counter())
+    p = build_plan(s, d, sol, warnings)
+    p.to_json()
+    t.append(time.perf_counter())
+    names = ["read", "validate", "build", "solve", "plan_out"]
+    out = {k: t[i + 1] - t[i] for i, k in enumerate(names)}
+    out.update(strategy=sol.strategy, qp_method=sol.qp_method, dual_steps=sol.dual_steps, rounds=sol.rounds,
+               gap=sol.gap, status=sol.status, profit=float(sol.objective),
+               usage_entries=int(d.use_amt.size))
+    return out, s, d, sol
+
+
+def scip_side(s, ours: float, cap: float) -> dict:
+    from tests.reference import scip_race
+
+    limit = min(100.0 * ours, cap)
+    r = scip_race(s, GAP, limit)
+    r["limit"] = limit
+    return r
+
+
+def enumeration_side(s) -> dict:
+    from tests.reference import enumerate_slates
+
+    t0 = time.perf_counter()
+    best = enumerate_slates(s)
+    return {"seconds": time.perf_counter() - t0, "profit": best}
+
+
+def sweep_side(s, d, sol, points: int = 25) -> dict:
+    """25 re-plans with more of the dearest resource, reusing the arrays and warm-starting the multipliers."""
+    from planner.api import build_plan
+    from planner.fastroute import solve_fast
+
+    r = int(np.argmax(sol.duals)) if sol.duals.size else 0
+    t0 = time.perf_counter()
+    prev, worst = sol, 0.0
+    for k in range(points):
+        cap = d.capacity.copy()
+        cap[r] *= 1.0 + 0.5 * k / (points - 1)
+        dk = d.with_capacity(cap)
+        # the previous plan's multipliers, re-evaluated at the new capacity, seed the bundle
+        start = list(prev.multipliers_tried[-10:]) + [prev.duals]
+        got = solve_fast(dk, GAP, start=start)
+        build_plan(s, dk, got)
+        worst = max(worst, got.gap)
+        prev = got
+    return {"seconds": time.perf_counter() - t0, "points": points, "resource": d.resources[r], "worst_gap": worst}
+
+
+def run(keys: list[str], scip_cap: float, json_path: Path) -> dict:
+    results: dict = {"machine": {"cpus": os.cpu_count(), "python": platform.python_version(),
+                                 "platform": platform.platform()}, "gap": GAP, "cases": {}}
+    with tempfile.TemporaryDirectory() as tmp:
+        folder = Path(tmp)
+        for key, n, m, fixed, density, target in CASES:
+            if key not in keys:
+                continue
+            path = write_scenario(folder, key, n, m, fixed, density)
+            whole = whole_command(path, folder / f"{key}.json")
+            st, s, d, sol = stages(path)
+            row = {"products": n, "limits": m, "fixed_costs": fixed, "target": target, "whole": whole,
+                   "stages": st}
+            if n <= 200 and fixed != "none":
+                row["scip"] = scip_side(s, st["solve"], scip_cap)
+            if n <= 12:
+                row["enumeration"] = enumeration_side(s)
+            if key == "1000x20-some":
+                row["sweep"] = sweep_side(s, d, sol)
+            results["cases"][key] = row
+            print(f"  done {key}: whole {whole['seconds']:.2f} s", file=sys.stderr, flush=True)
+    c = results["cases"]
+    if "1000x20-some" in c and "10000x20-some" in c:
+        for what in ("whole", "solve"):
+            a = c["1000x20-some"]["whole"]["seconds"] if what == "whole" else c["1000x20-some"]["stages"]["solve"]
+            b = c["10000x20-some"]["whole"]["seconds"] if what == "whole" else c["10000x20-some"]["stages"]["solve"]
+            results[f"growth_exponent_{what}"] = math.log(b / a) / math.log(10.0)
+    json_path.write_text(json.dumps(results, indent=2, default=float))
+    return results
+
+
+def table(res: dict) -> str:
+    lines = [f"certified gap target {res['gap']:g}; {res['machine']['cpus']} cores; Python {res['machine']['python']}",
+             "",
+             "(whole: wall seconds of the command, CPU seconds of the child in brackets, machine load average "
+             "after it)", "",
+             "| case | whole `planner plan` | peak MiB | read | validate | build | solve | route | steps/rounds "
+             "| gap | SCIP to same gap | ratio | target |",
+             "|---|---|---|---|---|---|---|---|---|---|---|---|---|"]
+    for key, r in res["cases"].items():
+        st, wh = r["stages"], r["whole"]
+        scip, ratio = "—", "—"
+        if "scip" in r:
+            sc = r["scip"]
+            scip = f"{sc['seconds']:.1f} s" if sc["reached"] else \
+                f"not reached in {sc['limit']:.0f} s (gap {sc['gap']:.1%})"
+            ratio = f"{sc['seconds'] / st['solve']:.0f}×" if sc["reached"] else f"> {sc['limit'] / st['solve']:.0f}×"
+        if "enumeration" in r:
+            en = r["enumeration"]
+            same = abs(en["profit"] - st["profit"]) <= 1e-6 * max(abs(en["profit"]), 1.0)
+            scip += f"; enumeration {en['seconds']:.1f} s, {'same profit' if same else 'DIFFERENT profit'}"
+        lines.append(
+            f"| {key} | {wh['seconds']:.2f} s [{wh['cpu_seconds']:.2f} CPU s, load {wh['load_average']:.1f}]"
+            f"{'' if wh['exit'] == 0 else ' exit ' + str(wh['exit'])} | {wh['peak_mib']:.0f} | {st['read']:.2f} "
+            f"| {st['validate']:.2f} | {st['build']:.3f} | {st['solve']:.2f} | {st['strategy']} ({st['qp_method']}) "
+            f"| {st['dual_steps']}/{st['rounds']} | {st['gap']:.1e} | {scip} | {ratio} | {r['target']} |")
+    extra = []
+    for key, r in res["cases"].items():
+        if "sweep" in r:
+            sw = r["sweep"]
+            extra.append(f"- sweep ({key}, {sw['points']} capacities of {sw['resource']}, arrays and multipliers "
+                         f"reused): {sw['seconds']:.2f} s = {sw['seconds'] / r['whole']['seconds']:.1f}× one whole "
+                         f"plan command ({r['whole']['seconds']:.2f} s); worst gap {sw['worst_gap']:.1e}")
+    for what in ("whole", "solve"):
+        if f"growth_exponent_{what}" in res:
+            extra.append(f"- growth 1,000 → 10,000 products (20 limits), {what}: "
+                         f"n^{res[f'growth_exponent_{what}']:.2f}")
+    return "\n".join(lines + [""] + extra)
+
+
+def main(argv: list[str] | None = None) -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--quick", action="store_true", help="small cases only")
+    ap.add_argument("--cases", nargs="*", default=None, help="case keys to run")
+    ap.add_argument("--scip-cap", type=float, default=600.0, help="longest SCIP run (seconds)")
+    ap.add_argument("--json", type=Path, default=Path("benchmark.json"), help="where to write the results")
+    a = ap.parse_args(argv)
+    keys = a.cases or [k for k, *_ in CASES if not a.quick or k in QUICK]
+    res = run(keys, a.scip_cap, a.json)
+    print(table(res))
+    print(f"\nresults written to {a.json}")
+
+
+if __name__ == "__main__":
+    main()
