@@ -21,6 +21,9 @@ from .errors import PlannerError
 console = Console()
 err_console = Console(stderr=True)
 
+#: Largest scenario (products) for which `plan` adds the capacity analysis unless told otherwise.
+CAPACITY_AUTO_MAX = 100
+
 #: Modules that add commands to ``main`` when imported (each has ``register(main)``).
 COMMAND_MODULES: list[str] = ["planner.data_cli", "planner.report.cli", "planner.risk.cli", "planner.capacity.cli"]
 
@@ -72,12 +75,14 @@ def main() -> None:
 @click.option("--write-model", type=click.Path(path_type=Path), default=None, metavar="PATH.lp",
               help="Write the mixed-integer QP as an LP file with readable names, and stop.")
 @click.option("--choose-options", is_flag=True, help="Also pick the best set of capacity options jointly.")
-@click.option("--no-capacity", is_flag=True, help="Skip the shadow-price ranges and the options' values.")
+@click.option("--capacity/--no-capacity", "capacity", default=None,
+              help="Add (or skip) the shadow-price ranges and the options' values; by default they are "
+                   f"added for scenarios of up to {CAPACITY_AUTO_MAX} products or with --choose-options.")
 @solve_options
 @friendly
 def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_model: Path | None,
              rel_gap: float, time_limit: float | None, solver: str | None, quiet: bool, debug: bool,
-             choose_options: bool = False, no_capacity: bool = False) -> None:
+             choose_options: bool = False, capacity: bool | None = None) -> None:
     """Plan the optimal product mix of SCENARIO (YAML, .xlsx workbook or folder of CSV files)."""
     from .api import plan
     from .output import write_text_atomic
@@ -95,7 +100,12 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
     s, warns = load_scenario(scenario)
     p = plan(s, rel_gap=rel_gap, time_limit=time_limit, solver=solver)
     p.warnings = list(warns) + p.warnings
-    if not no_capacity:
+    if capacity is None:
+        capacity = choose_options or len(s.products) <= CAPACITY_AUTO_MAX
+        if not capacity:
+            p.warnings.append(f"shadow-price ranges and option values were skipped for {len(s.products):,} "
+                              "products (each needs several re-solves): add --capacity to compute them")
+    if capacity:
         from .capacity.analysis import add_capacity_analysis
 
         add_capacity_analysis(p, s, choose=choose_options)

@@ -64,6 +64,8 @@ def _yaml_problem(e: yaml.YAMLError, data: bytes) -> Problem:
     mark = getattr(e, "problem_mark", None)
     where = f"line {mark.line + 1}, column {mark.column + 1}" if mark else ""
     what = str(getattr(e, "problem", None) or e).strip()
+    if "nesting depth" in what:  # newer PyYAML builds stop here instead of recursing
+        return Problem("", "is nested too deeply to read", "flatten the file")
     if "another document" in what:
         fix = "keep one scenario per file: remove the '---' line and what follows, or split the file"
     elif "constructor for the tag" in what:

@@ -240,7 +240,10 @@ def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
             break
         over = t - d.contribution(vol) > 1e-9 * scale
         if not over.any():
-            break  # the MILP's value is exact at its point: the gap is the MILP's own
+            if opt.highs_options["mip_rel_gap"] > 0:  # the gap left is the MILP's own: close it fully once
+                opt.highs_options = dict(opt.highs_options, mip_rel_gap=0.0, mip_abs_gap=0.0)
+                continue
+            break
         add_cuts(m, d, np.flatnonzero(over), vol[over])
     fell_back = slates.best is None and deadline is not None and status != "error"
     if fell_back:  # the time limit ended the search before any slate was solved: a feasible plan anyway
@@ -263,8 +266,9 @@ def _outer_approximation(d: MixData, rel_gap: float, time_limit: float | None,
     if fell_back:
         sol.messages.append("the time limit ended the search before any slate was solved: a fallback slate is shown")
     if status == "optimal" and sol.gap > rel_gap:
-        status = "time_limit" if rounds >= max_rounds else "optimal"
-        sol.messages.append(f"stopped at gap {sol.gap:.2e} after {rounds} rounds")
+        # Never 'optimal' without the certificate: a round limit is a limit; anything else is trouble.
+        status = "time_limit" if rounds >= max_rounds else "error"
+        sol.messages.append(f"stopped at gap {sol.gap:.2e} after {rounds} rounds, above the {rel_gap:.1e} asked for")
     sol.status = status
     return sol
 

@@ -68,6 +68,18 @@ def _add(t: Table, col: str, left: bool = False, name: bool = False) -> None:
                  min_width=min(12, len(col)) if name else None)
 
 
+#: Most product rows printed in the terminal; larger plans show the most profitable (all are in --json).
+MAX_ROWS = 40
+
+
+def shown_products(p: Plan) -> list:
+    """The products printed: all of them, or the MAX_ROWS most profitable of a large plan, in plan order."""
+    if len(p.products) <= MAX_ROWS:
+        return list(p.products)
+    keep = set(sorted(range(len(p.products)), key=lambda k: -p.products[k].profit)[:MAX_ROWS])
+    return [x for k, x in enumerate(p.products) if k in keep]
+
+
 def products_table(p: Plan, console: Console | None = None) -> Table:
     """Products in the plan; narrow consoles drop contribution, then revenue."""
     c = p.currency
@@ -78,7 +90,7 @@ def products_table(p: Plan, console: Console | None = None) -> Table:
                 if x not in drop]
         for col in cols:
             _add(t, col, left=col in ("product", "run"), name=col == "product")
-        for x in p.products:
+        for x in shown_products(p):
             run = "must" if x.must_run else ("yes" if x.running else "[red]off[/]")
             cells = {"product": escape(x.name), "run": run, "volume": qty(x.volume),
                      "price": price(x.price, c) if x.volume > 0 else "—", "revenue": money(x.revenue, c),
@@ -125,7 +137,7 @@ def standalone_table(p: Plan, console: Console | None = None) -> Table:
                 if x not in drop]
         for col in cols:
             _add(t, col, left=col in ("product", "break-even"), name=col == "product")
-        for x in p.products:
+        for x in shown_products(p):
             s = x.standalone
             be = " – ".join(qty(v) if v is not None else "∞" for v in s.break_even) if s.break_even else "never"
             cells = {"product": escape(x.name), "best vol.": qty(s.optimal_volume),
@@ -144,6 +156,11 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True)
     con.print(status_line(p))
     con.print()
     con.print(products_table(p, con))
+    if len(p.products) > MAX_ROWS:
+        running = sum(x.running for x in p.products)
+        con.print(f"[dim]… the {MAX_ROWS} most profitable of {len(p.products):,} products shown "
+                  f"({running:,} running, {len(p.products) - running:,} shut down); every product is in --json "
+                  "and the report.[/]")
     if p.plant_fixed_cost:
         con.print(f"Plant-wide fixed cost: {money(p.plant_fixed_cost, p.currency)}")
     con.print()
