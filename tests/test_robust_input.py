@@ -130,8 +130,9 @@ def test_missing_file_suggests_a_close_name(tmp_path):
         f"{tmp_path / 'spring.yml'}: no such file or folder (did you mean '{tmp_path / 'spring.yaml'}'?)"]
 
 
-def test_a_folder_is_not_a_scenario(tmp_path):
-    if "/" in loading.READERS:
-        pytest.skip("a reader for scenario folders is registered")
-    with pytest.raises(ScenarioError, match="is a folder"):
+def test_an_empty_folder_is_refused_with_a_message(tmp_path):
+    """A folder is read as CSV tables; an empty one must say what is missing, not crash."""
+    with pytest.raises(ScenarioError) as info:
         load_scenario(tmp_path)
+    assert [str(p) for p in info.value.problems] == [
+        "file products.csv: is missing (add it with a heading row: name, price_intercept, price_slope, unit_cost, ...)"]
