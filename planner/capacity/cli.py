@@ -8,9 +8,9 @@ from pathlib import Path
 
 import click
 from rich.console import Console
-from rich.table import Table
+from rich.markup import escape
 
-from ..terminal import money, qty
+from ..terminal import _table, money, qty
 from .sweep import Sweep, run_sweep
 
 
@@ -95,8 +95,7 @@ def print_sweep(sw: Sweep, console: Console) -> None:
     from ..plan import LABOUR_NOTE
 
     c, unit = sw.currency, f" {sw.unit}" if sw.unit else ""
-    t = Table(title=f"Sweep of {sw.resource}", title_justify="left", show_edge=False, pad_edge=False,
-              header_style="bold")
+    t = _table(f"Sweep of {escape(sw.resource)}")
     for col in ("capacity", "profit", "shadow price", "bottleneck", "running"):
         t.add_column(col, justify="right" if col in ("capacity", "profit", "shadow price") else "left")
     prev = None
@@ -110,8 +109,7 @@ def print_sweep(sw: Sweep, console: Console) -> None:
     console.print(t)
     console.print("[dim]running: how many products run (* the slate changed since the row above)[/]")
     console.print()
-    b = Table(title="Where things change (exact)", title_justify="left", show_edge=False, pad_edge=False,
-              header_style="bold")
+    b = _table("Where things change (exact)")
     for col in ("capacity", "profit", "shadow price below → above", "change"):
         b.add_column(col, justify="left" if col == "change" else "right", overflow="fold")
     for x in sw.breakpoints:
