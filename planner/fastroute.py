@@ -26,6 +26,7 @@ import numpy as np
 
 from models.data import MixData
 
+from .certificate import relative_gap
 from .fastqp import solve_slate_fast
 from .lagrange import DualPoint, choice_bounds, evaluate, minimise_dual
 from .qp import QPResult
@@ -52,11 +53,6 @@ def applies(d: MixData) -> bool:
                 continue
         return False
     return True
-
-
-def gap_of(bound: float, value: float) -> float:
-    """(bound − value) / max(|value|, 1), never negative."""
-    return max(0.0, (bound - value) / max(abs(value), 1.0))
 
 
 class _Slates:
@@ -112,7 +108,7 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
     bound = dual.best.value
     steps = dual.steps
     _try_slates(slates, dual.points, left)
-    if slates.best is not None and gap_of(bound, slates.value) > rel_gap:
+    if slates.best is not None and relative_gap(bound, slates.value) > rel_gap:
         # the QP's shadow prices are a good point for the dual too; then tighten towards the incumbent
         qp_point = evaluate(d, slates.best[0].duals)
         more = minimise_dual(d, rel_tol=max(rel_gap / 20, 1e-10), start=None, deadline=deadline,
@@ -123,7 +119,7 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
         _try_slates(slates, more.points[len(dual.points):], left)
         dual = more
     messages = [f"Lagrangian bound after {steps} multiplier steps"]
-    if slates.best is not None and gap_of(bound, slates.value) <= rel_gap:
+    if slates.best is not None and relative_gap(bound, slates.value) <= rel_gap:
         return _solution(MixSolution, slates, bound, "lagrangian", 0, "optimal", messages, steps, dual.best.lam,
                          [p.lam for p in dual.points])
     if deadline is not None and time.perf_counter() >= deadline:
@@ -165,7 +161,7 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
                 milp_bound = np.inf  # the restricted MILP's bound is taken afresh
             milp.start_from(slates.best[0].volume, slates.best[1])
         # early rounds only place cuts: solve them loosely, the last ones to the target
-        loose = float(max(rel_gap / 4, 0.1 * gap_of(bound, slates.value))) if not tight else rel_gap / 4
+        loose = float(max(rel_gap / 4, 0.1 * relative_gap(bound, slates.value))) if not tight else rel_gap / 4
         milp.h.setOptionValue("mip_rel_gap", loose)
         res = milp.solve(left())
         if res["infeasible"]:
@@ -179,7 +175,7 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
             status = "time_limit" if res["time_limit"] else "error"
             break
         qp = slates.evaluate(res["slate"], left())
-        if gap_of(bound, slates.value) <= rel_gap:
+        if relative_gap(bound, slates.value) <= rel_gap:
             break
         if res["time_limit"]:
             status = "time_limit"

@@ -71,6 +71,15 @@ def priced_usage(d: MixData, lam: np.ndarray) -> np.ndarray:
     return np.bincount(d.use_prod, weights=d.use_amt * lam[d.use_res], minlength=d.n)
 
 
+def best_response(c: np.ndarray, b: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Volume maximising c·D − b·D² over lo ≤ D ≤ hi, per product (units; c in currency/unit).
+
+    c/(2b) clipped to the bounds where b > 0; for a fixed price, hi if c > 0 else lo.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(b > 0, np.clip(c / (2 * np.where(b > 0, b, 1.0)), lo, hi), np.where(c > 0, hi, lo))
+
+
 def evaluate(d: MixData, lam: np.ndarray) -> DualPoint:
     """L(λ), its subgradient and each product's best response (closed form, O(nnz))."""
     lam = np.maximum(np.asarray(lam, dtype=float), 0.0)
@@ -78,8 +87,7 @@ def evaluate(d: MixData, lam: np.ndarray) -> DualPoint:
     lo, U, b = d.run_floor, d.upper, d.b
     reachable = lo <= U * (1 + 1e-12) + 1e-12
     hi = np.maximum(U, lo)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        D = np.where(b > 0, np.clip(c / (2 * np.where(b > 0, b, 1.0)), lo, hi), np.where(c > 0, hi, lo))
+    D = best_response(c, b, lo, hi)
     run_value = c * D - b * D * D - d.F
     run = np.where(d.can_stop, (run_value > 0) & reachable, True)
     g = np.where(run, run_value, 0.0)
@@ -104,8 +112,7 @@ def choice_bounds(d: MixData, points: list[DualPoint]) -> tuple[np.ndarray, np.n
     hi = np.maximum(U, lo)
     for p in points:
         c = d.margin - priced_usage(d, p.lam)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            D = np.where(b > 0, np.clip(c / (2 * np.where(b > 0, b, 1.0)), lo, hi), np.where(c > 0, hi, lo))
+        D = best_response(c, b, lo, hi)
         rv = np.where(reachable, c * D - b * D * D - d.F, -np.inf)
         stop = np.minimum(stop, p.value - np.maximum(rv, 0.0))
         run = np.minimum(run, p.value - np.maximum(-rv, 0.0))

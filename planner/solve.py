@@ -26,6 +26,7 @@ import numpy as np
 from models.data import MixData, committed_floor
 
 from . import fastroute
+from .certificate import relative_gap
 from .errors import InfeasibleError, SolverError
 from .qp import QPResult, solve_slate_qp
 
@@ -56,11 +57,6 @@ class MixSolution:
     @property
     def gap(self) -> float:
         return relative_gap(self.bound, self.objective)
-
-
-def relative_gap(bound: float, value: float) -> float:
-    """(bound − value) / max(|value|, 1), never negative (currency-free)."""
-    return max(0.0, (bound - value) / max(abs(value), 1.0))
 
 
 def check_commitments(d: MixData, unit_of: dict[str, str] | None = None) -> None:

@@ -18,7 +18,7 @@ from planner.schema import Scenario
 
 def scip_plan(s: Scenario, gap: float = 1e-9, time_limit: float = 60.0) -> tuple[float, dict[str, float]]:
     """(optimal profit before plant-wide fixed cost, volumes) from SCIP."""
-    m, D = _scip_model(s, gap, time_limit)
+    m, D, _ = _scip_model(s, gap, time_limit)
     m.optimize()
     assert m.getStatus() == "optimal", m.getStatus()
     return m.getObjVal(), {k: m.getVal(v) for k, v in D.items()}
@@ -31,7 +31,7 @@ def scip_race(s: Scenario, gap: float, time_limit: float) -> dict:
     """
     import time
 
-    m, _ = _scip_model(s, gap, time_limit)
+    m, _, _ = _scip_model(s, gap, time_limit)
     t0 = time.perf_counter()
     m.optimize()
     secs = time.perf_counter() - t0
@@ -42,8 +42,12 @@ def scip_race(s: Scenario, gap: float, time_limit: float) -> dict:
             "status": m.getStatus()}
 
 
-def _scip_model(s: Scenario, gap: float, time_limit: float):
-    """The mixed-integer QP in SCIP, built from the raw scenario numbers."""
+def _scip_model(s: Scenario, gap: float, time_limit: float, with_options: bool = False):
+    """The mixed-integer QP in SCIP, built from the raw scenario numbers: (model, volumes, option scales).
+
+    With ``with_options`` each capacity option gets a scale z ∈ [0, 1] (binary for
+    all-or-nothing options) that adds its amounts to the resources for its cost.
+    """
     from pyscipopt import Model, quicksum
 
     m = Model("reference")
@@ -51,7 +55,7 @@ def _scip_model(s: Scenario, gap: float, time_limit: float):
     m.setParam("limits/gap", gap)
     m.setParam("limits/time", time_limit)
     m.setParam("randomization/randomseedshift", 0)
-    D, y, t = {}, {}, {}
+    D, y, t, z = {}, {}, {}, {}
     for p in s.products:
         cap = p.max_volume if p.max_volume is not None else 1e7
         lo = max(p.min_volume, p.min_run) if (p.must_run or p.min_volume > 0) else 0.0
@@ -66,14 +70,22 @@ def _scip_model(s: Scenario, gap: float, time_limit: float):
             m.addCons(D[p.name] >= lo)
         t[p.name] = m.addVar(f"t_{p.name}", lb=None)
         m.addCons(t[p.name] <= (p.price_intercept - p.unit_cost) * D[p.name] - p.price_slope * D[p.name] * D[p.name])
+    cost_terms = []
+    for k, o in enumerate(s.options if with_options else []):
+        whole = o.adds is not None
+        z[o.name] = m.addVar(f"z_{k}", vtype="B" if whole else "C", lb=0.0, ub=1.0)
+        per_scale = o.cost if whole else o.cost_per_unit * sum(o.adds_up_to.values())
+        cost_terms.append(per_scale * z[o.name])
     for r in s.resources:
         terms = [amt * D[p.name] for p in s.products for res, amt in p.usage.items() if res == r.name]
+        extra = [amt * z[o.name] for o in (s.options if with_options else [])
+                 for res, amt in (o.adds or o.adds_up_to).items() if res == r.name]
         if terms:
-            m.addCons(quicksum(terms) <= r.capacity)
+            m.addCons(quicksum(terms) <= r.capacity + quicksum(extra))
     fixed_always = sum(p.fixed_cost for p in s.products if p.name not in y)
     m.setObjective(quicksum(t.values()) - quicksum(p.fixed_cost * y[p.name] for p in s.products if p.name in y)
-                   - fixed_always, sense="maximize")
-    return m, D
+                   - fixed_always - quicksum(cost_terms), sense="maximize")
+    return m, D, z
 
 
 def enumerate_slates(s: Scenario) -> float:

@@ -38,7 +38,9 @@ import numpy as np
 from models.cuts import peak_contribution
 from models.data import MixData
 
+from ..certificate import relative_gap
 from ..kkt import polish
+from ..lagrange import best_response
 
 INF = highspy.kHighsInf
 #: Largest number of products this route takes (beyond it the active-set QP is not reliable).
@@ -234,9 +236,7 @@ class SampleSolver:
         """
         c = d.margin - (self.dense.T @ lam if self.m else 0.0)
         lo, hi = self.floor, d.upper
-        with np.errstate(divide="ignore", invalid="ignore"):
-            interior = np.where(d.b > 0, c / (2 * np.where(d.b > 0, d.b, 1.0)), np.where(c > 0, hi, lo))
-        D = np.clip(interior, lo, hi)
+        D = np.clip(best_response(c, d.b, lo, hi), lo, hi)
         D = np.where(np.isfinite(D), D, lo)
         value = c * D - d.b * D * D - d.F
         on = np.ones(self.n, dtype=bool)
@@ -284,7 +284,7 @@ class SampleSolver:
                 break
             bound_l, slate = self.lagrangian(d, best[2])
             bound = min(bound, bound_l)
-            if _gap(bound, best[0]) <= self.rel_gap:
+            if relative_gap(bound, best[0]) <= self.rel_gap:
                 return SampleSolution("optimal", best[0], max(bound, best[0]), best[3], best[1], best[2], 0)
         return self._outer(d, best, bound, seen, met)
 
@@ -336,9 +336,7 @@ class SampleSolver:
         """L_S(λ) = const + Σ_{free i ∈ S} gain_i: (const, gain) for shadow prices λ (currency)."""
         c = d.margin - (self.dense.T @ lam if self.m else 0.0)
         lo, hi = self.floor, d.upper
-        with np.errstate(divide="ignore", invalid="ignore"):
-            interior = np.where(d.b > 0, c / (2 * np.where(d.b > 0, d.b, 1.0)), np.where(c > 0, hi, lo))
-        D = np.clip(interior, lo, hi)
+        D = np.clip(best_response(c, d.b, lo, hi), lo, hi)
         D = np.where(np.isfinite(D), D, lo)
         value = np.where(hi < lo, -np.inf, c * D - d.b * D * D - d.F)
         always = ~d.can_stop
@@ -371,7 +369,7 @@ class SampleSolver:
                     return None
                 if not best or obj > best[0]:
                     best = [obj, v2, lam, slate.copy()]
-            if best and _gap(bound, best[0]) <= self.rel_gap:
+            if best and relative_gap(bound, best[0]) <= self.rel_gap:
                 return SampleSolution("optimal", best[0], max(bound, best[0]), best[3], best[1], best[2], rounds)
             over = t - d.contribution(vol) > 1e-9 * scale
             if not over.any():
@@ -386,6 +384,3 @@ def _has_ipm() -> bool:
     return has_ipm()
 
 
-def _gap(bound: float, value: float) -> float:
-    """(bound − value) / max(|value|, 1), never negative (as :func:`planner.solve.relative_gap`)."""
-    return max(0.0, (bound - value) / max(abs(value), 1.0))
