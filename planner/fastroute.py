@@ -196,7 +196,7 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
             milp.add_cuts(on, qp.volume[on])
     if slates.best is None or status == "error":
         return None
-    messages.append(f"tangent-cut MILP: {rounds} rounds, {milp.ncuts} cuts")
+    messages.append(f"tangent-cut MILP: {rounds} round{'s' if rounds != 1 else ''}, {milp.ncuts} cuts")
     sol = _solution(MixSolution, slates, bound, "lagrangian+cuts", rounds, status, messages, steps, dual.best.lam,
                     [p.lam for p in dual.points])
     if sol.status == "optimal" and sol.gap > rel_gap:

@@ -181,6 +181,7 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True)
         con.print()
     for w in p.warnings:
         con.print(f"[yellow]warning:[/] {escape(w)}")  # warnings name products[x]: not markup
-    for m in p.solver.get("messages", []):
-        con.print(f"[yellow]note:[/] {escape(m)}")
+    if p.status != "optimal":  # how the search ended matters then; otherwise it is in --json
+        for m in p.solver.get("messages", []):
+            con.print(f"[yellow]note:[/] {escape(m)}")
     con.print(f"[dim]{LABOUR_NOTE}[/]")
