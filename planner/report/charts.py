@@ -74,8 +74,11 @@ class _Ticks(Formatter):
         big = max((abs(x) for x in locs), default=0.0)
         self.scale = (1e6, "M") if self.currency and big >= 1e6 else (1e3, "k") if self.currency and big >= 1e4 \
             else (1.0, "")
-        step = min((b - a for a, b in zip(locs, locs[1:]) if b > a), default=1.0) / self.scale[0]
-        self.decimals = max(0, min(6, -math.floor(math.log10(step)))) if step > 0 else 0
+        scaled = [x / self.scale[0] for x in locs]
+        step = min((b - a for a, b in zip(scaled, scaled[1:]) if b > a), default=1.0)
+        # The fewest decimals that show every tick exactly (2.5k must not print as 2k).
+        self.decimals = next((k for k in range(7) if all(abs(round(x, k) - x) <= 1e-9 * max(step, 1e-12)
+                                                         for x in scaled)), 6)
 
     def __call__(self, x, pos=None) -> str:
         div, suffix = self.scale
