@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import json
 import platform
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass, field, fields
 from typing import Any
 
 from .economics import Standalone
@@ -35,7 +35,7 @@ class ProductPlan:
     must_run: bool = False
 
     def to_dict(self) -> dict[str, Any]:
-        d = {k: v for k, v in asdict(self).items() if k != "standalone"}
+        d = {f: getattr(self, f) for f in _PRODUCT_FIELDS}
         d["standalone"] = self.standalone.to_dict()
         return d
 
@@ -56,7 +56,10 @@ class ResourcePlan:
     range_high_reason: str = ""  # why the range ends above
 
     def to_dict(self) -> dict[str, Any]:
-        return asdict(self)
+        d = {f: getattr(self, f) for f in _RESOURCE_FIELDS}
+        if d["shadow_price_range"] is not None:
+            d["shadow_price_range"] = list(d["shadow_price_range"])
+        return d
 
 
 @dataclass
@@ -102,7 +105,8 @@ class Plan:
         return out
 
     def to_json(self) -> str:
-        return json.dumps(self.to_dict(), indent=2, allow_nan=False, default=_json_default)
+        """The plan as JSON text: one key per line, one product or resource per line."""
+        return readable_json(self.to_dict())
 
     def products_frame(self):
         """Products as a pandas DataFrame, one row per product (standalone columns prefixed)."""
@@ -121,6 +125,30 @@ class Plan:
 
         return pd.DataFrame([r.to_dict() for r in self.resources]).set_index("name") if self.resources \
             else pd.DataFrame(columns=["capacity", "used", "utilisation", "shadow_price", "binding", "unit"])
+
+
+_PRODUCT_FIELDS = [f.name for f in fields(ProductPlan) if f.name != "standalone"]
+_RESOURCE_FIELDS = [f.name for f in fields(ResourcePlan)]
+
+
+def readable_json(obj: dict[str, Any]) -> str:
+    """``obj`` as JSON with its keys one per line and list items one per line.
+
+    Each item is written by the C encoder (``json.dumps`` without indent),
+    which is what keeps a 10,000-product plan fast to write; NaN and
+    infinity are refused as in strict JSON.
+    """
+    def one(x: Any) -> str:
+        return json.dumps(x, allow_nan=False, default=_json_default, ensure_ascii=False)
+
+    parts = []
+    for key, value in obj.items():
+        if isinstance(value, list) and value:
+            body = ",\n    ".join(one(v) for v in value)
+            parts.append(f"  {one(key)}: [\n    {body}\n  ]")
+        else:
+            parts.append(f"  {one(key)}: {one(value)}")
+    return "{\n" + ",\n".join(parts) + "\n}\n"
 
 
 def _json_default(x: Any) -> Any:
