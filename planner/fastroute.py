@@ -82,11 +82,12 @@ class _Slates:
 
 
 def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, threads: int = 1, seed: int = 0,
-               start: list[np.ndarray] | None = None):
+               start: list[np.ndarray] | None = None, known: list[np.ndarray] = ()):
     """The fast route (see the module docstring); a :class:`planner.solve.MixSolution` or None.
 
     ``start``: multipliers to try first (e.g. the shadow prices of a previous
-    plan of the same scenario, for sweeps).
+    plan of the same scenario, for sweeps); ``known``: slates to solve first,
+    as incumbents (e.g. the plan's own slate when re-solving at other capacities).
     """
     from .solve import MixSolution
 
@@ -103,6 +104,8 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
             return None
         return MixSolution(qp.status, qp.volume, np.ones(d.n, dtype=bool), qp.objective,
                            max(qp.bound, qp.objective), qp.duals, "qp", 0, qp_method=qp.method)
+    for slate in known:
+        slates.evaluate(np.asarray(slate, dtype=bool) | ~d.can_stop, left())
     # 2. the Lagrangian bound and its slate
     dual = minimise_dual(d, rel_tol=max(rel_gap / 4, 1e-9), start=start, deadline=deadline)
     bound = dual.best.value

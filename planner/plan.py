@@ -54,6 +54,7 @@ class ResourcePlan:
     shadow_price_slope: float | None = None  # dλ/dH on that range (currency per unit²)
     range_low_reason: str = ""  # why the range ends below
     range_high_reason: str = ""  # why the range ends above
+    range_slates_checked: bool | None = None  # both ends re-checked for a better slate (None: not analysed)
 
     def to_dict(self) -> dict[str, Any]:
         d = {f: getattr(self, f) for f in _RESOURCE_FIELDS}

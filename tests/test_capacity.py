@@ -213,3 +213,39 @@ def test_plan_cli_json_has_ranges_and_options(demo_path, tmp_path):
         assert set(o) >= {"name", "cost", "profit_with", "gain", "net_gain", "slate_changes"}
         assert o["net_gain"] == pytest.approx(o["gain"] - o["cost"])
     assert data["option_pick"]["profit"] >= data["profit"]
+
+
+def test_time_budget_flags_unchecked_ends_and_keeps_the_slate_range():
+    """With no time for re-checks, each range is the fixed slate's own (the parametric QP's), flagged, and warned of."""
+    s, _ = validate_scenario(synthetic_scenario(8, 3, seed=2, fixed_costs="some", price_slope="mixed"))
+    d = mix_data(s)
+    base = solve_mix(d, rel_gap=1e-8)
+    full = resource_ranges(d, base.running)
+    rushed = resource_ranges(d, base.running, deadline=0.0)  # a deadline already passed
+    assert any(not b.slates_checked for b in rushed)
+    for a, b in zip(full, rushed):
+        assert b.shadow_price == pytest.approx(a.shadow_price) and b.slope == pytest.approx(a.slope)
+        if not b.slates_checked:
+            assert "time budget" in (b.why_low + b.why_high)
+        # the fixed slate's range can only be wider than the one cut short by a slate change
+        assert (b.high is None) or (a.high is not None and b.high >= a.high - 1e-9 * max(abs(a.high), 1))
+        assert (b.low is None) or (a.low is not None and b.low <= a.low + 1e-9 * max(abs(a.low), 1))
+    p = add_capacity_analysis(plan(s, rel_gap=1e-9), s, budget=0.0)
+    flagged = [r for r in p.resources if r.range_slates_checked is False]
+    assert all(r.range_slates_checked is not None for r in p.resources)
+    assert flagged and any("not re-checked" in w for w in p.warnings)
+
+
+@pytest.mark.parametrize("seed", [3, 5, 8])
+def test_slack_limit_cut_to_its_use_keeps_the_plan(seed):
+    """Common practice (a smaller feasible set that still holds the optimum keeps it optimal): cutting a
+    slack limit down to its use, re-solved from scratch, gives the same profit."""
+    s, _ = validate_scenario(synthetic_scenario(9, 4, seed=seed, fixed_costs="some"))
+    d = mix_data(s)
+    base = solve_mix(d, rel_gap=1e-9)
+    used = d.used(base.volume)
+    for k, rg in enumerate(resource_ranges(d, base.running)):
+        if used[k] < d.capacity[k] * (1 - 1e-6) and rg.low is not None:
+            cap = d.capacity.copy()
+            cap[k] = rg.low
+            assert solve_mix(d.with_capacity(cap), rel_gap=1e-9).objective == pytest.approx(base.objective, rel=1e-7)

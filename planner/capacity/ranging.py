@@ -14,6 +14,7 @@ by a re-solve just inside it.
 
 from __future__ import annotations
 
+import time
 from dataclasses import dataclass
 
 import numpy as np
@@ -40,6 +41,11 @@ class Range:
     high: float | None
     why_low: str
     why_high: str
+    slates_checked: bool = True  # False: an end was not re-checked for a better slate (time budget)
+
+
+#: Added to a range end's reason where the time budget left it unchecked for other slates.
+UNCHECKED = " (other slates not checked here: time budget)"
 
 
 def slate_change(d: MixData, before: np.ndarray, after: np.ndarray) -> str:
@@ -60,8 +66,15 @@ def reach_of(d: MixData, r: int) -> float:
     return float(np.sum(H[use] * U[use])) if use.any() else float(d.capacity[r])
 
 
-def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6) -> list[Range]:
-    """Ranges of every resource's shadow price at the optimal ``slate`` of ``d``."""
+def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6,
+                    deadline: float | None = None) -> list[Range]:
+    """Ranges of every resource's shadow price at the optimal ``slate`` of ``d``.
+
+    Each range end is checked for a better slate by re-solving the mixed-integer
+    plan there, dearest shadow price first; past ``deadline`` (a
+    ``time.perf_counter()`` value) the remaining ends keep the fixed slate's
+    range, flagged ``slates_checked=False`` with the reason saying so.
+    """
     slate = np.asarray(slate, dtype=bool)
     R = len(d.resources)
     need = d.used(committed_floor(d))
@@ -95,14 +108,16 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6) -> lis
         ends.append((t_lo, t_hi))
     reach = d.capacity + np.array([max(e[1], 0.0) for e in ends])
     warm = WarmMix(d, reach, rel_gap)
-    out = []
-    for r in range(R):
+    out: list[Range | None] = [None] * R
+    # dearest shadow prices first: where a time budget runs out, the bottlenecks are done
+    order = sorted(range(R), key=lambda r: -(float(pieces[r].lam(0.0)[r]) if pieces[r] is not None else -1.0))
+    for r in order:
         piece, path = pieces[r], paths[r]
         name = d.resources[r]
         H0 = float(d.capacity[r])
         if piece is None:
-            out.append(Range(name, 0.0, 0.0, None, None, "not ranged: the active set is degenerate",
-                             "not ranged: the active set is degenerate"))
+            out[r] = Range(name, 0.0, 0.0, None, None, "not ranged: the active set is degenerate",
+                           "not ranged: the active set is degenerate")
             continue
         lam, slope = float(piece.lam(0.0)[r]), float(piece.dlam[r])
         hi, why_hi = piece.t_hi, piece.why_hi
@@ -112,7 +127,20 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6) -> lis
             lo, why_lo = t_lo_check, "the committed and minimum volumes need this much"
             if t_lo_check <= -H0:
                 why_lo = "capacity reaches 0"
+        why_hi = why_hi or "no end: the limit stays slack"
+        checked = True
         for sign, t_end in ((+1, t_hi_check), (-1, t_lo_check)):
+            if sign < 0 and not piece.active[r]:
+                continue  # a slack limit cut back to its use: the plan still fits, so it stays optimal
+            if sign * t_end <= 0:
+                continue
+            if deadline is not None and time.perf_counter() > deadline:
+                checked = False
+                if sign > 0:
+                    why_hi += UNCHECKED
+                else:
+                    why_lo += UNCHECKED
+                continue
             change = _slate_change_between(d, warm, path, slate, r, t_end, sign)
             if change is not None:
                 t_c, text = change
@@ -120,9 +148,9 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6) -> lis
                     hi, why_hi = t_c, f"the slate changes: {text}"
                 if sign < 0 and t_c > lo:
                     lo, why_lo = t_c, f"the slate changes: {text}"
-        out.append(Range(name, lam, slope, H0 + lo if np.isfinite(lo) else None,
-                         H0 + hi if np.isfinite(hi) else None, why_lo, why_hi or "no end: the limit stays slack"))
-    return out
+        out[r] = Range(name, lam, slope, H0 + lo if np.isfinite(lo) else None,
+                       H0 + hi if np.isfinite(hi) else None, why_lo, why_hi, checked)
+    return [x for x in out if x is not None]
 
 
 def _start(d: MixData, slate: np.ndarray):
@@ -142,6 +170,8 @@ def _slate_change_between(d: MixData, warm: WarmMix, path: SlatePath, slate: np.
     target = t_end
     found = None
     for _ in range(8):
+        if warm.no_better_slate(d.capacity + target * u, path.profit(target)):
+            return found
         res = warm.solve(d.capacity + target * u, known=[slate])
         if slate_key(res.slate) == slate_key(slate):
             return found

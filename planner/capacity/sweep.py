@@ -182,7 +182,8 @@ def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, step
             sw.locate(float(T[k]), slates[k], float(T[k + 1]), slates[k + 1], changes)
     points = [_point(sw, float(t), sl) for t, sl in zip(T, slates)]
     bps = _breakpoints(sw, T, slates, changes)
-    stats = {"seconds": time.perf_counter() - t_start, "milp_solves": sw.warm.milp_solves,
+    stats = {"seconds": time.perf_counter() - t_start, "fast_solves": sw.warm.fast_solves,
+             "milp_solves": sw.warm.milp_solves,
              "qp_solves": sum(p.qp_solves for p in sw.paths.values()) + sw.warm.qp_solves,
              "slates": len(sw.paths), "rel_gap": rel_gap}
     return Sweep(resource, unit, lo, hi, s.currency, points, bps, stats)

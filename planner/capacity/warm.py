@@ -1,5 +1,10 @@
 """The mixed-integer plan re-solved at other capacities, reusing the work already done.
 
+Each capacity is first solved by the fast route (:mod:`planner.fastroute`:
+Lagrangian bound and slate, cut MILP only where the gap is open), warm-started
+from the multipliers of the capacity solved before; where it declines (capacity
+options in the data, or no certificate), the persistent cut MILP below does it.
+
 The tangent cuts of the outer approximation (:mod:`models.cuts`) bound each
 product's contribution and do not depend on any capacity, so one persistent
 cut MILP serves every capacity: only the right-hand sides of the capacity rows
@@ -24,6 +29,8 @@ from models.cuts import add_cuts, build_cut_model
 from models.data import MixData, tight_upper
 
 from ..errors import SolverError
+from ..fastroute import applies, solve_fast
+from ..lagrange import minimise_dual
 from ..qp import solve_slate_qp
 from ..solve import _initial_points, relative_gap
 
@@ -56,7 +63,37 @@ class WarmMix:
         self.reach = np.maximum(np.asarray(reach, dtype=float), d.capacity)
         self.milp_solves = 0
         self.qp_solves = 0
-        self._build()
+        self.fast_solves = 0
+        self.fast = applies(d)  # the fast route first; this MILP only where it declines
+        self._start: list[np.ndarray] | None = None  # multipliers of the last fast solve
+        self._built = False
+
+    def no_better_slate(self, cap: np.ndarray, profit: float) -> bool:
+        """True if no slate beats ``profit`` (products only) at ``cap`` by more than the gap.
+
+        A Lagrangian certificate (the dual bound of the shared limits, warm-started
+        from the last multipliers): cheap where it holds; False where it cannot
+        show it, and the caller then solves.
+        """
+        if not self.fast:
+            return False
+        target = profit + self.rel_gap * max(abs(profit), 1.0)
+        res = minimise_dual(self.d.with_capacity(cap), rel_tol=self.rel_gap / 4, start=self._start,
+                            target=target, max_steps=60)
+        if res.best.value <= target:
+            self._start = [p.lam for p in res.points[-10:]]
+            return True
+        return False
+
+    def _solve_fast(self, cap: np.ndarray, known: list[np.ndarray]) -> WarmResult | None:
+        """The fast route at ``cap``, warm-started from the last solve's multipliers (None if it declines)."""
+        sol = solve_fast(self.d.with_capacity(cap), self.rel_gap, start=self._start, known=list(known))
+        if sol is None or sol.status != "optimal":
+            return None
+        self.fast_solves += 1
+        tried = list(sol.multipliers_tried or [])[-10:]
+        self._start = tried + [sol.duals] if sol.duals.size else None
+        return WarmResult(np.asarray(sol.running, dtype=bool), sol.objective, sol.bound, sol.rounds)
 
     def _build(self) -> None:
         """(Re)build the persistent cut MILP (bounds at ``reach``) and its HiGHS instance."""
@@ -140,7 +177,14 @@ class WarmMix:
         from pyomo.contrib.appsi.base import TerminationCondition as ATC
 
         cap = np.asarray(cap, dtype=float)
+        if self.fast:
+            got = self._solve_fast(cap, known)
+            if got is not None:
+                return got
         evaluate = evaluate or self._qp_profit(cap)
+        if not self._built:
+            self._build()
+            self._built = True
         self._set_capacity(cap)
         best_slate, best = None, -np.inf
         seen: dict[bytes, float] = {}
