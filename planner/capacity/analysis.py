@@ -9,7 +9,7 @@ import numpy as np
 from ..errors import PlannerError
 from ..plan import Plan
 from ..prepare import mix_data
-from ..qp import solve_slate_qp
+from ..fastqp import solve_slate_fast
 from ..schema import Scenario
 from .options import choose_options, value_options
 from .ranging import resource_ranges
@@ -40,7 +40,7 @@ def add_capacity_analysis(p: Plan, s: Scenario, choose: bool = False, rel_gap: f
 def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float | None) -> Plan:
     d = mix_data(s)
     slate = plan_slate(p, d.can_stop)
-    qp = solve_slate_qp(d, slate)
+    qp = solve_slate_fast(d, slate)
     duals = qp.duals if qp.status == "optimal" else np.array([r.shadow_price for r in p.resources])
     deadline = None if budget is None else time.perf_counter() + budget
     ranges = resource_ranges(d, slate, deadline=deadline)

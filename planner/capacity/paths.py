@@ -13,7 +13,7 @@ import numpy as np
 
 from models.data import MixData
 
-from ..qp import solve_slate_qp
+from ..fastqp import solve_slate_fast
 from .parametric import Degenerate, Piece, SlateQP, classify, is_kkt, piece_at, pivot
 
 
@@ -76,7 +76,7 @@ class SlatePath:
             tt = t + shift * max(abs(t), 1.0)
             if not self.feasible(tt):
                 continue
-            res = solve_slate_qp(self.d.with_capacity(self.cap0 + tt * self.u), self.slate)
+            res = solve_slate_fast(self.d.with_capacity(self.cap0 + tt * self.u), self.slate)
             self.qp_solves += 1
             if res.status != "optimal":
                 continue

@@ -21,7 +21,7 @@ import numpy as np
 
 from models.data import MixData, committed_floor, tight_upper
 
-from ..qp import solve_slate_qp
+from ..fastqp import solve_slate_fast
 from .parametric import Degenerate, SlateQP, classify, is_kkt, piece_at
 from .paths import SlatePath, overtakes
 from .warm import WarmMix, slate_key
@@ -155,7 +155,7 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6,
 
 def _start(d: MixData, slate: np.ndarray):
     """The active set of the plan's slate at the scenario's capacities (None if not found)."""
-    res = solve_slate_qp(d, slate)
+    res = solve_slate_fast(d, slate)
     if res.status != "optimal":
         return None
     return classify(SlateQP.of(d, slate), res.volume, res.duals)

@@ -88,6 +88,8 @@ class _Sweeper:
         reach[r] = max(top, self.H0)
         self.warm = WarmMix(d, reach, rel_gap)
         self.paths: dict[bytes, SlatePath] = {}
+        self.last: np.ndarray | None = None  # the slate best() returned last
+        self.certified = 0  # points settled by the dual bound alone
 
     def path(self, slate: np.ndarray) -> SlatePath:
         key = slate_key(slate)
@@ -95,8 +97,12 @@ class _Sweeper:
             self.paths[key] = SlatePath(self.d, slate, self.u)
         return self.paths[key]
 
-    def best(self, t: float) -> np.ndarray:
-        """The optimal slate at H0 + t (re-solved with carried cuts)."""
+    def best(self, t: float, quick: bool = False) -> np.ndarray:
+        """The optimal slate at H0 + t, to the gap (re-solved warm).
+
+        ``quick``: near a point just solved (confirming a change point), first
+        try whether a dual bound shows that nothing beats the slate met last.
+        """
         hint = None  # binding rows of a slate already followed here: a good guess for a new one
         for known_path in self.paths.values():
             near = next((q for q in known_path.pieces if q.contains(t)), None)
@@ -108,8 +114,20 @@ class _Sweeper:
             p = self.path(slate).at(t, hint)
             return (-np.inf, None) if p is None else (self.path(slate).q.profit(p.x(t)), p.x(t))
 
-        known = [p.slate for p in self.paths.values()]
-        return self.warm.solve(self.d.capacity + t * self.u, evaluate, known).slate
+        cap = self.d.capacity + t * self.u
+        if quick and self.last is not None:  # the slate met last, if a dual bound shows nothing beats it
+            value = self.path(self.last).profit(t)
+            if np.isfinite(value) and self.warm.no_better_slate(cap, value):
+                self.certified += 1
+                return self.last
+        known = [self.last] if self.last is not None else []  # (each known slate costs a QP solve)
+        self.last = self.warm.solve(cap, evaluate, known).slate
+        return self.last
+
+    def better_of(self, t: float, slates: list[np.ndarray]) -> np.ndarray:
+        """The slate with the highest exact profit at t among ``slates`` (the first on ties)."""
+        values = [self.path(sl).profit(t) for sl in slates]
+        return slates[int(np.argmax(values))]
 
     def locate(self, ta: float, sa: np.ndarray, tb: float, sb: np.ndarray, out: list, depth: int = 0) -> None:
         """Append (t, slate before, slate after) for every slate change found in (ta, tb)."""
@@ -119,8 +137,10 @@ class _Sweeper:
         if tc is None:
             tc = self._bisect(ta, sa, tb)
         eps = SIDE * max(abs(self.H0 + tc), 1.0)
-        left = self.best(max(tc - eps, ta)) if tc - eps > ta else sa
-        right = self.best(min(tc + eps, tb)) if tc + eps < tb else sb
+        self.last = sa
+        left = self.best(max(tc - eps, ta), quick=True) if tc - eps > ta else sa
+        self.last = sb
+        right = self.best(min(tc + eps, tb), quick=True) if tc + eps < tb else sb
         if slate_key(left) != slate_key(sa):
             self.locate(ta, sa, tc - eps, left, out, depth + 1)
         if slate_key(left) != slate_key(right):
@@ -176,6 +196,11 @@ def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, step
         slates.append(sw.best(float(t)))
         if progress:
             progress(k + 1, len(T))
+    # a neighbour's slate that does at least as well here replaces the one found (both are within the gap;
+    # this keeps slates that tie to within the gap from showing as changes)
+    for k in range(len(T)):
+        near = [slates[k]] + [slates[j] for j in (k - 1, k + 1) if 0 <= j < len(T)]
+        slates[k] = sw.better_of(float(T[k]), near)
     changes: list = []
     for k in range(len(T) - 1):
         if slate_key(slates[k]) != slate_key(slates[k + 1]):
@@ -183,6 +208,7 @@ def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, step
     points = [_point(sw, float(t), sl) for t, sl in zip(T, slates)]
     bps = _breakpoints(sw, T, slates, changes)
     stats = {"seconds": time.perf_counter() - t_start, "fast_solves": sw.warm.fast_solves,
+             "dual_checks": sw.certified,
              "milp_solves": sw.warm.milp_solves,
              "qp_solves": sum(p.qp_solves for p in sw.paths.values()) + sw.warm.qp_solves,
              "slates": len(sw.paths), "rel_gap": rel_gap}

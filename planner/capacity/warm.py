@@ -31,7 +31,7 @@ from models.data import MixData, tight_upper
 from ..errors import SolverError
 from ..fastroute import applies, solve_fast
 from ..lagrange import minimise_dual
-from ..qp import solve_slate_qp
+from ..fastqp import solve_slate_fast
 from ..solve import _initial_points, relative_gap
 
 
@@ -161,7 +161,7 @@ class WarmMix:
 
         def evaluate(slate: np.ndarray) -> tuple[float, np.ndarray | None]:
             self.qp_solves += 1
-            res = solve_slate_qp(d, slate)
+            res = solve_slate_fast(d, slate)
             return (res.objective, res.volume) if res.status == "optimal" else (-np.inf, None)
 
         return evaluate
