@@ -141,7 +141,15 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6,
                 else:
                     why_lo += UNCHECKED
                 continue
-            change = _slate_change_between(d, warm, path, slate, r, t_end, sign)
+            try:
+                change = _slate_change_between(d, warm, path, slate, r, t_end, sign, deadline)
+            except TimeoutError:
+                checked = False
+                if sign > 0:
+                    why_hi += UNCHECKED
+                else:
+                    why_lo += UNCHECKED
+                continue
             if change is not None:
                 t_c, text = change
                 if sign > 0 and t_c < hi:
@@ -162,17 +170,22 @@ def _start(d: MixData, slate: np.ndarray):
 
 
 def _slate_change_between(d: MixData, warm: WarmMix, path: SlatePath, slate: np.ndarray, r: int,
-                          t_end: float, sign: int) -> tuple[float, str] | None:
-    """The nearest point between 0 and t_end where another slate becomes optimal, with its text."""
+                          t_end: float, sign: int, deadline: float | None = None) -> tuple[float, str] | None:
+    """The nearest point between 0 and t_end where another slate becomes optimal, with its text.
+
+    Raises TimeoutError where ``deadline`` passes before the answer is certain.
+    """
     if sign * t_end <= 0:
         return None
     u = path.u
     target = t_end
     found = None
     for _ in range(8):
+        if deadline is not None and time.perf_counter() > deadline:
+            raise TimeoutError("the time budget is spent")
         if warm.no_better_slate(d.capacity + target * u, path.profit(target)):
             return found
-        res = warm.solve(d.capacity + target * u, known=[slate])
+        res = warm.solve(d.capacity + target * u, known=[slate], deadline=deadline)
         if slate_key(res.slate) == slate_key(slate):
             return found
         other = SlatePath(d, res.slate, u)

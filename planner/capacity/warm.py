@@ -20,6 +20,7 @@ optimal volumes as well as at the MILP's, which closes the gap in few rounds.
 
 from __future__ import annotations
 
+import time
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -85,9 +86,21 @@ class WarmMix:
             return True
         return False
 
-    def _solve_fast(self, cap: np.ndarray, known: list[np.ndarray]) -> WarmResult | None:
-        """The fast route at ``cap``, warm-started from the last solve's multipliers (None if it declines)."""
-        sol = solve_fast(self.d.with_capacity(cap), self.rel_gap, start=self._start, known=list(known))
+    def _solve_fast(self, cap: np.ndarray, known: list[np.ndarray],
+                    deadline: float | None = None) -> WarmResult | None:
+        """The fast route at ``cap``, warm-started from the last solve's multipliers (None if it declines).
+
+        Raises TimeoutError if ``deadline`` (a ``time.perf_counter()`` value) passes first.
+        """
+        limit = None
+        if deadline is not None:
+            limit = deadline - time.perf_counter()
+            if limit <= 0:
+                raise TimeoutError("the time budget is spent")
+        sol = solve_fast(self.d.with_capacity(cap), self.rel_gap, time_limit=limit, start=self._start,
+                         known=list(known))
+        if deadline is not None and time.perf_counter() >= deadline and (sol is None or sol.status != "optimal"):
+            raise TimeoutError("the time budget is spent")
         if sol is None or sol.status != "optimal":
             return None
         self.fast_solves += 1
@@ -168,17 +181,19 @@ class WarmMix:
 
     def solve(self, cap: np.ndarray,
               evaluate: Callable[[np.ndarray], tuple[float, np.ndarray | None]] | None = None,
-              known: list[np.ndarray] = ()) -> WarmResult:
+              known: list[np.ndarray] = (), deadline: float | None = None) -> WarmResult:
         """The optimal slate at capacities ``cap``; ``known`` slates are tried first as incumbents.
 
         ``evaluate(slate)`` returns the slate's optimal profit at ``cap``
-        (products only, −inf if infeasible) and its volumes (or None).
+        (products only, −inf if infeasible) and its volumes (or None).  With a
+        ``deadline`` (fast route only) a solve that cannot finish by then raises
+        TimeoutError.
         """
         from pyomo.contrib.appsi.base import TerminationCondition as ATC
 
         cap = np.asarray(cap, dtype=float)
         if self.fast:
-            got = self._solve_fast(cap, known)
+            got = self._solve_fast(cap, known, deadline)
             if got is not None:
                 return got
         evaluate = evaluate or self._qp_profit(cap)
