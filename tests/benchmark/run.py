@@ -9,7 +9,9 @@ to YAML first, untimed) it records
 
 - the wall time and peak memory (ru_maxrss of the child) of the whole
   ``planner plan FILE --json OUT`` command in a fresh process: start-up,
-  reading, validation, model build, solve and writing the plan;
+  reading, validation, model build, solve and writing the plan (and, where
+  the command adds it by default, the capacity analysis: then also the
+  time with ``--no-capacity``);
 - the same stages timed one by one in this process (read, validate, build
   the arrays, solve, assemble and write the plan), the route taken, multiplier
   steps, cut rounds and the certified gap;
@@ -38,6 +40,8 @@ from pathlib import Path
 
 import yaml
 
+from planner.cli import CAPACITY_AUTO_MAX
+
 ROOT = Path(__file__).resolve().parents[2]
 GAP = 1e-4
 
@@ -64,9 +68,9 @@ def write_scenario(folder: Path, key: str, n: int, m: int, fixed: str, density: 
     return path
 
 
-def whole_command(path: Path, out: Path) -> dict:
+def whole_command(path: Path, out: Path, *extra: str) -> dict:
     """Wall time and peak memory of `planner plan` as a fresh process (threads as shipped)."""
-    cmd = [sys.executable, "-m", "planner.cli", "plan", str(path), "--json", str(out), "--quiet"]
+    cmd = [sys.executable, "-m", "planner.cli", "plan", str(path), "--json", str(out), "--quiet", *extra]
     t0 = time.perf_counter()
     proc = subprocess.Popen(cmd, cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
     _, status, usage = os.wait4(proc.pid, 0)
@@ -150,6 +154,8 @@ def run(keys: list[str], scip_cap: float, json_path: Path) -> dict:
                 continue
             path = write_scenario(folder, key, n, m, fixed, density)
             whole = whole_command(path, folder / f"{key}.json")
+            if n <= CAPACITY_AUTO_MAX:  # the default command adds the capacity analysis here: time the plan alone too
+                whole["plan_only"] = whole_command(path, folder / f"{key}-plan.json", "--no-capacity")["seconds"]
             st, s, d, sol = stages(path)
             row = {"products": n, "limits": m, "fixed_costs": fixed, "target": target, "whole": whole,
                    "stages": st}
@@ -193,6 +199,7 @@ def table(res: dict) -> str:
             scip += f"; enumeration {en['seconds']:.1f} s, {'same profit' if same else 'DIFFERENT profit'}"
         lines.append(
             f"| {key} | {wh['seconds']:.2f} s [{wh['cpu_seconds']:.2f} CPU s, load {wh['load_average']:.1f}]"
+            f"{'; ' + format(wh['plan_only'], '.2f') + ' s with --no-capacity' if 'plan_only' in wh else ''}"
             f"{'' if wh['exit'] == 0 else ' exit ' + str(wh['exit'])} | {wh['peak_mib']:.0f} | {st['read']:.2f} "
             f"| {st['validate']:.2f} | {st['build']:.3f} | {st['solve']:.2f} | {st['strategy']} ({st['qp_method']}) "
             f"| {st['dual_steps']}/{st['rounds']} | {st['gap']:.1e} | {scip} | {ratio} | {r['target']} |")
