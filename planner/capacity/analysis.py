@@ -51,8 +51,8 @@ def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float |
         rp.range_slates_checked = rg.slates_checked
     unchecked = [rg.resource for rg in ranges if not rg.slates_checked]
     if unchecked:
-        p.warnings.append(f"shadow-price ranges of {len(unchecked)} of {len(ranges)} resources were not re-checked "
-                          f"for a better slate within the {budget:.2g} s budget ({', '.join(unchecked[:5])}"
+        p.warnings.append(f"shadow-price ranges of {len(unchecked)} of {len(ranges)} resources were not fully "
+                          f"re-checked for a better slate within the {budget:.2g} s budget ({', '.join(unchecked[:5])}"
                           f"{', …' if len(unchecked) > 5 else ''}): their ranges hold for this slate; "
                           "add --capacity to check them all")
     base, values = value_options(s, d, slate, duals, rel_gap)

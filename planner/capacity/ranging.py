@@ -45,7 +45,7 @@ class Range:
 
 
 #: Added to a range end's reason where the time budget left it unchecked for other slates.
-UNCHECKED = " (other slates not checked here: time budget)"
+UNCHECKED = " (other slates not checked: time budget)"
 
 
 def slate_change(d: MixData, before: np.ndarray, after: np.ndarray) -> str:
