@@ -135,12 +135,18 @@ class _Sweeper:
             return
         tc = overtakes(self.path(sa), self.path(sb), ta, tb)
         if tc is None:
+            pa, pb = self.path(sa).profit(tb), self.path(sb).profit(tb)
+            if pb <= pa + 1e-9 * max(abs(pa), 1.0):
+                return  # b never gets ahead of a here: the two tie to within the gap, no change to place
             tc = self._bisect(ta, sa, tb)
         eps = SIDE * max(abs(self.H0 + tc), 1.0)
+        # either side, a slate found within the gap that does no better than the known one is not a change
         self.last = sa
-        left = self.best(max(tc - eps, ta), quick=True) if tc - eps > ta else sa
+        t_left = max(tc - eps, ta)
+        left = self.better_of(t_left, [sa, self.best(t_left, quick=True)]) if tc - eps > ta else sa
         self.last = sb
-        right = self.best(min(tc + eps, tb), quick=True) if tc + eps < tb else sb
+        t_right = min(tc + eps, tb)
+        right = self.better_of(t_right, [sb, self.best(t_right, quick=True)]) if tc + eps < tb else sb
         if slate_key(left) != slate_key(sa):
             self.locate(ta, sa, tc - eps, left, out, depth + 1)
         if slate_key(left) != slate_key(right):
