@@ -24,9 +24,6 @@ err_console = Console(stderr=True)
 #: Largest scenario (products) for which `plan` adds the capacity analysis unless told otherwise.
 CAPACITY_AUTO_MAX = 100
 
-#: Seconds the automatic capacity analysis may spend re-checking range ends for better slates
-#: (or twice the plan's solve, if longer); --capacity asks for all of them without a limit.
-CAPACITY_AUTO_BUDGET = 1.0
 
 #: Modules that add commands to ``main`` when imported (each has ``register(main)``).
 COMMAND_MODULES: list[str] = ["planner.data_cli", "planner.report.cli", "planner.risk.cli", "planner.capacity.cli"]
@@ -82,7 +79,7 @@ def main() -> None:
 @click.option("--capacity/--no-capacity", "capacity", default=None,
               help="Add (or skip) the shadow-price ranges and the options' values; by default they are "
                    f"added for scenarios of up to {CAPACITY_AUTO_MAX} products or with --choose-options, "
-                   f"with about {CAPACITY_AUTO_BUDGET:g} s for re-checking the range ends for better slates.")
+                   "with about 1 s for re-checking the range ends for better slates.")
 @solve_options
 @friendly
 def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_model: Path | None,
@@ -108,7 +105,9 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
     budget = None
     if capacity is None:
         capacity = choose_options or len(s.products) <= CAPACITY_AUTO_MAX
-        budget = max(CAPACITY_AUTO_BUDGET, 2 * float(p.solver.get("seconds", 0.0)))
+        from .capacity.analysis import auto_budget
+
+        budget = auto_budget(p)
         if not capacity:
             p.warnings.append(f"shadow-price ranges and option values were skipped for {len(s.products):,} "
                               "products (each needs several re-solves): add --capacity to compute them")

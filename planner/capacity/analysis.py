@@ -15,6 +15,16 @@ from .options import choose_options, value_options
 from .ranging import resource_ranges
 
 
+#: Seconds the capacity analysis run by default (by ``plan`` and ``report``) may spend re-checking range
+#: ends for better slates, or twice the plan's solve if longer; ``plan --capacity`` has no limit.
+AUTO_BUDGET = 1.0
+
+
+def auto_budget(p: Plan) -> float:
+    """The default analysis's re-check budget for plan ``p`` (seconds)."""
+    return max(AUTO_BUDGET, 2 * float(p.solver.get("seconds", 0.0) or 0.0))
+
+
 def plan_slate(p: Plan, can_stop: np.ndarray) -> np.ndarray:
     """The plan's slate as the fixed-slate QP needs it (products without a choice always 'on')."""
     return np.array([x.running for x in p.products], dtype=bool) | ~can_stop

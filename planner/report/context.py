@@ -93,8 +93,8 @@ def make_context(plan: Plan, scenario: Scenario, source: str | Path = "", sweep:
 def _capacity_analysis(plan: Plan, scenario: Scenario) -> bool:
     """Run the capacity analysis on ``plan`` if that package is present; False where it is not."""
     try:
-        from ..capacity.analysis import add_capacity_analysis
+        from ..capacity.analysis import add_capacity_analysis, auto_budget
     except ImportError:
         return False
-    add_capacity_analysis(plan, scenario)
+    add_capacity_analysis(plan, scenario, budget=auto_budget(plan))
     return True
