@@ -64,7 +64,7 @@ def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float |
         p.warnings.append(f"shadow-price ranges of {len(unchecked)} of {len(ranges)} resources were not fully "
                           f"re-checked for a better slate within the {budget:.2g} s budget ({', '.join(unchecked[:5])}"
                           f"{', …' if len(unchecked) > 5 else ''}): their ranges hold for this slate; "
-                          "add --capacity to check them all")
+                          "run planner plan --capacity to check them all")
     base, values = value_options(s, d, slate, duals, rel_gap)
     p.extras["options"] = [v.to_dict() for v in values]
     if choose and s.options:
