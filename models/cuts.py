@@ -25,7 +25,7 @@ from __future__ import annotations
 import numpy as np
 import pyomo.environ as pyo
 
-from .data import MixData
+from .data import MixData, peak_contribution
 from .mix import _add_capacity, _add_options, _add_volumes, option_cost
 
 
@@ -47,14 +47,6 @@ def build_cut_model(d: MixData, integer: bool = True) -> pyo.ConcreteModel:
         - option_cost(m, d),
         sense=pyo.maximize)
     return m
-
-
-def peak_contribution(d: MixData) -> np.ndarray:
-    """max over 0 ≤ D ≤ U of (a − v)·D − b·D² per product (currency)."""
-    with np.errstate(divide="ignore", invalid="ignore"):
-        top = np.where(d.b > 0, d.margin / (2 * np.where(d.b > 0, d.b, 1.0)), d.upper)
-    D = np.clip(top, 0.0, d.upper)
-    return d.contribution(D)
 
 
 def add_cuts(m: pyo.ConcreteModel, d: MixData, products: np.ndarray, points: np.ndarray) -> int:

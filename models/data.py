@@ -188,3 +188,11 @@ def tight_upper(d: MixData) -> np.ndarray:
     upper = np.minimum(upper, res_bound)
     upper = np.minimum(upper, peak_bound(d))
     return np.maximum(upper, 0.0)
+
+
+def peak_contribution(d: MixData) -> np.ndarray:
+    """max over 0 ≤ D ≤ U of (a − v)·D − b·D² per product (currency)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        top = np.where(d.b > 0, d.margin / (2 * np.where(d.b > 0, d.b, 1.0)), d.upper)
+    D = np.clip(top, 0.0, d.upper)
+    return d.contribution(D)

@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from models.data import MixData
+from models.data import MixData, peak_contribution
 
 _INF = 1e30
 
@@ -47,7 +47,7 @@ class CutMilp:
         ncol = 2 * n + self.free.size
         floor = d.run_floor
         lo_D = np.where(d.can_stop, 0.0, floor)
-        top_t = np.maximum(_peak_contribution(d), 0.0) + 1.0
+        top_t = np.maximum(peak_contribution(d), 0.0) + 1.0
         cost = np.r_[np.zeros(n), np.ones(n), -d.F[self.free]]
         lower = np.r_[lo_D, np.full(n, -_INF), np.zeros(self.free.size)]
         upper = np.r_[d.upper, top_t, np.ones(self.free.size)]
@@ -158,13 +158,6 @@ class CutMilp:
             slate[self.free] = x[2 * n:] > 0.5
             out.update(volume=x[:n], t=x[n:2 * n], slate=slate)
         return out
-
-
-def _peak_contribution(d: MixData) -> np.ndarray:
-    """max over 0 ≤ D ≤ U of (a − v)·D − b·D² per product (as models.cuts.peak_contribution, without Pyomo)."""
-    with np.errstate(divide="ignore", invalid="ignore"):
-        top = np.where(d.b > 0, d.margin / (2 * np.where(d.b > 0, d.b, 1.0)), d.upper)
-    return d.contribution(np.clip(top, 0.0, d.upper))
 
 
 def _csr(nrow: int, R: np.ndarray, C: np.ndarray, V: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

@@ -25,6 +25,7 @@ tests in ``tests/test_fastyaml.py`` hold the fast path to PyYAML's result.
 
 from __future__ import annotations
 
+import functools
 import re
 from typing import Any
 
@@ -57,7 +58,13 @@ _KEY = rf"(?:{_WORD}|{_QUOTE})"
 _COMMENT = rf"(?: +#{_CHAR}*)?"
 _LINE = (rf"(?: *(?:(?:- )*{_KEY}:(?: +{_VALUE})?|(?:- )+{_VALUE}|(?:- )*-)?{_COMMENT}"
          rf"| *#{_CHAR}*)")
-_PLAIN_BLOCK = re.compile(rf"(?:{_LINE}\r?\n)*{_LINE}")
+_PLAIN_BLOCK_PATTERN = rf"(?:{_LINE}\r?\n)*{_LINE}"
+
+
+@functools.cache
+def _plain_block() -> re.Pattern[str]:
+    """The whitelist, compiled on first use (about 0.1 s: not paid at start-up)."""
+    return re.compile(_PLAIN_BLOCK_PATTERN)
 
 _RESOLVERS = yaml.SafeLoader.yaml_implicit_resolvers
 _STR_TAG = "tag:yaml.org,2002:str"
@@ -98,7 +105,7 @@ def _agrees(obj: Any, seen: dict[str, bool]) -> bool:
 
 def fast_read(text: str) -> Any | None:
     """The content of YAML ``text`` exactly as PyYAML's safe loader reads it, or None if not vouched for."""
-    if yaml_rs is None or _PLAIN_BLOCK.fullmatch(text) is None:
+    if yaml_rs is None or _plain_block().fullmatch(text) is None:
         return None
     try:
         raw = yaml_rs.loads(text, parse_datetime=False,

@@ -89,11 +89,17 @@ def test_a_generated_catalogue_takes_the_fast_path_and_agrees() -> None:
     _check(flow)
 
 
-def test_reading_a_file_gives_pyyaml_values(tmp_path: Path) -> None:
+def test_reading_a_file_gives_pyyaml_values(tmp_path: Path, monkeypatch) -> None:
+    import planner.loading as loading
+
+    taken = []
+    monkeypatch.setattr(loading, "FAST_FROM_BYTES", 0)  # offer this small file to the fast reader too
+    monkeypatch.setattr(loading, "fast_read", lambda text: taken.append(1) or fast_read(text))
     raw = synthetic_scenario(40, 5, seed=7, fixed_costs="near", density=0.5)
     path = tmp_path / "s.yaml"
     path.write_text(yaml.dump(raw, Dumper=yaml.SafeDumper, sort_keys=False), encoding="utf-8")
     got, problems = read_yaml_checked(path)
+    assert taken and fast_read(path.read_text(encoding="utf-8")) is not None
     assert problems == []
     assert _same(got, yaml.safe_load(path.read_text(encoding="utf-8")))
 

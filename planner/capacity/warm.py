@@ -26,7 +26,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from models.cuts import add_cuts, build_cut_model
 from models.data import MixData, tight_upper
 
 from ..errors import SolverError
@@ -114,6 +113,8 @@ class WarmMix:
 
         d = self.d
         bounds = d.with_capacity(self.reach)
+        from models.cuts import add_cuts, build_cut_model  # Pyomo: imported only where this path runs
+
         self.m = build_cut_model(bounds)
         add_cuts(self.m, bounds, *_initial_points(bounds))
         self.opt = Highs()
@@ -153,6 +154,8 @@ class WarmMix:
                 pts.append(float(x[k]))
                 keep.append(k)
         if keep:
+            from models.cuts import add_cuts
+
             add_cuts(self.m, self.d, np.array(keep), x[keep])
 
     def _set_capacity(self, cap: np.ndarray) -> None:
@@ -253,6 +256,8 @@ class WarmMix:
             over = t - d.contribution(vol) > 1e-10 * self.scale
             if not over.any():
                 break
+            from models.cuts import add_cuts
+
             add_cuts(m, d, np.flatnonzero(over), vol[over])
         if best_slate is None or not np.isfinite(best):
             raise SolverError("no feasible plan found while re-solving at other capacities")

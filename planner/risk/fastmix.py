@@ -35,8 +35,7 @@ from dataclasses import dataclass
 import highspy
 import numpy as np
 
-from models.cuts import peak_contribution
-from models.data import MixData
+from models.data import MixData, peak_contribution
 
 from ..certificate import relative_gap
 from ..kkt import polish
