@@ -66,6 +66,7 @@ def _plain_block() -> re.Pattern[str]:
     """The whitelist, compiled on first use (about 0.1 s: not paid at start-up)."""
     return re.compile(_PLAIN_BLOCK_PATTERN)
 
+
 _RESOLVERS = yaml.SafeLoader.yaml_implicit_resolvers
 _STR_TAG = "tag:yaml.org,2002:str"
 _PLAIN_KEYS = (str, int, float, bool, type(None))

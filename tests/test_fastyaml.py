@@ -66,6 +66,7 @@ PARTING = [
     "a: |\n  text\n", "a: >\n  folded\n", "a: one\n  two", "a: 'it''s'", 'a: "tab\\tx"', "a: .inf",
     "a: .NaN", "a: ~", "a:", "a: =", "a: 1.0e+400", "a: 12345678901234567890123", "- - x\n- y",
     "a:\n  - 1\n - 2", "a:\n- 1\n- 2", "a: [1, 2", "a: {b: 1", "a: b: c", "a: 1\r\nb: 2\r\n", "a: 1\rb: 2",
+    'a: 1\n"a": 2', "x:\n  a: 1\n  'a': 2", "k: {a: 1, a: 2}", "k: [1, 2]\nk: [3]",
 ]
 
 
@@ -77,7 +78,7 @@ def test_parting_cases_are_declined_or_agree(text: str) -> None:
 def test_rules_that_differ_are_declined() -> None:
     """Values YAML 1.1 types differently from 1.2 never take the fast path (common practice: the YAML 1.1 and 1.2 specs)."""
     for text in ("a: yes", "a: 010", "a: 1e3", "a: 0o17", "a: 1:30", "a: 2026-01-05", "<<: {b: 1}",
-                 "a: 1\na: 2", "\ufeffa: 1"):
+                 "a: 1\na: 2", 'a: 1\n"a": 2', "k: {a: 1, a: 2}", "\ufeffa: 1"):
         assert fast_read(text) is None, text
 
 
