@@ -107,10 +107,13 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
     for slate in known:
         slates.evaluate(np.asarray(slate, dtype=bool) | ~d.can_stop, left())
     # 2. the Lagrangian bound and its slate
-    dual = minimise_dual(d, rel_tol=max(rel_gap / 4, 1e-9), start=start, deadline=deadline)
+    # with a known slate solved, stop the bound as soon as it certifies that slate
+    target = slates.value + 0.5 * rel_gap * max(abs(slates.value), 1.0) if slates.best is not None else -np.inf
+    dual = minimise_dual(d, rel_tol=max(rel_gap / 4, 1e-9), start=start, deadline=deadline, target=target)
     bound = dual.best.value
     steps = dual.steps
-    _try_slates(slates, dual.points, left)
+    certified = slates.best is not None and relative_gap(bound, slates.value) <= rel_gap
+    _try_slates(slates, dual.points, left, 1 if certified else 3)  # (a known slate already certified: one try)
     if slates.best is not None and relative_gap(bound, slates.value) > rel_gap:
         # the QP's shadow prices are a good point for the dual too; then tighten towards the incumbent
         qp_point = evaluate(d, slates.best[0].duals)
@@ -207,9 +210,9 @@ def solve_fast(d: MixData, rel_gap: float, time_limit: float | None = None, thre
     return sol
 
 
-def _try_slates(slates: _Slates, points: list[DualPoint], left) -> None:
-    """Solve the slates of the best few dual points (distinct ones only)."""
-    ranked = sorted(points, key=lambda p: p.value)[:3]
+def _try_slates(slates: _Slates, points: list[DualPoint], left, few: int = 3) -> None:
+    """Solve the slates of the best ``few`` dual points (each distinct slate once)."""
+    ranked = sorted(points, key=lambda p: p.value)[:few]
     for p in ranked:
         slates.evaluate(p.slate, left())
 
