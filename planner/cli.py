@@ -24,7 +24,6 @@ err_console = Console(stderr=True)
 #: Largest scenario (products) for which `plan` adds the capacity analysis unless told otherwise.
 CAPACITY_AUTO_MAX = 100
 
-
 #: Modules that add commands to ``main`` when imported (each has ``register(main)``).
 COMMAND_MODULES: list[str] = ["planner.data_cli", "planner.report.cli", "planner.risk.cli", "planner.capacity.cli"]
 
@@ -102,19 +101,16 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
     s, warns = load_scenario(scenario)
     p = plan(s, rel_gap=rel_gap, time_limit=time_limit, solver=solver)
     p.warnings = list(warns) + p.warnings
-    budget = None
-    if capacity is None:
+    automatic = capacity is None
+    if automatic:
         capacity = choose_options or len(s.products) <= CAPACITY_AUTO_MAX
-        from .capacity.analysis import auto_budget
-
-        budget = auto_budget(p)
         if not capacity:
             p.warnings.append(f"shadow-price ranges and option values were skipped for {len(s.products):,} "
                               "products (each needs several re-solves): add --capacity to compute them")
     if capacity:
-        from .capacity.analysis import add_capacity_analysis
+        from .capacity.analysis import add_capacity_analysis, auto_budget
 
-        add_capacity_analysis(p, s, choose=choose_options, budget=budget)
+        add_capacity_analysis(p, s, choose=choose_options, budget=auto_budget(p) if automatic else None)
     if json_path:
         write_text_atomic(json_path, p.to_json())
     if not quiet:

@@ -249,3 +249,20 @@ def test_slack_limit_cut_to_its_use_keeps_the_plan(seed):
             cap = d.capacity.copy()
             cap[k] = rg.low
             assert solve_mix(d.with_capacity(cap), rel_gap=1e-9).objective == pytest.approx(base.objective, rel=1e-7)
+
+
+def test_warm_fallback_milp_agrees_with_the_fast_route(monkeypatch):
+    """The persistent Pyomo cut MILP (used where the fast route declines) gives the same ranges."""
+    import planner.capacity.warm as warm
+
+    s, _ = validate_scenario(synthetic_scenario(10, 3, seed=4, fixed_costs="near"))
+    d = mix_data(s)
+    base = solve_mix(d, rel_gap=1e-9)
+    fast = resource_ranges(d, base.running)
+    monkeypatch.setattr(warm, "applies", lambda _d: False)
+    slow = resource_ranges(d, base.running)
+    for a, b in zip(fast, slow):
+        for x, y in ((a.low, b.low), (a.high, b.high)):
+            assert (x is None) == (y is None)
+            if x is not None:
+                assert x == pytest.approx(y, rel=1e-6)

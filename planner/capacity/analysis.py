@@ -7,9 +7,9 @@ import time
 import numpy as np
 
 from ..errors import PlannerError
+from ..fastqp import solve_slate_fast
 from ..plan import Plan
 from ..prepare import mix_data
-from ..fastqp import solve_slate_fast
 from ..schema import Scenario
 from .options import choose_options, value_options
 from .ranging import resource_ranges

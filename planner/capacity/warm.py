@@ -29,9 +29,9 @@ import numpy as np
 from models.data import MixData, tight_upper
 
 from ..errors import SolverError
+from ..fastqp import solve_slate_fast
 from ..fastroute import applies, solve_fast
 from ..lagrange import minimise_dual
-from ..fastqp import solve_slate_fast
 from ..solve import _initial_points, relative_gap
 
 
@@ -115,6 +115,7 @@ class WarmMix:
         bounds = d.with_capacity(self.reach)
         from models.cuts import add_cuts, build_cut_model  # Pyomo: imported only where this path runs
 
+        self._add_cuts = add_cuts
         self.m = build_cut_model(bounds)
         add_cuts(self.m, bounds, *_initial_points(bounds))
         self.opt = Highs()
@@ -154,9 +155,7 @@ class WarmMix:
                 pts.append(float(x[k]))
                 keep.append(k)
         if keep:
-            from models.cuts import add_cuts
-
-            add_cuts(self.m, self.d, np.array(keep), x[keep])
+            self._add_cuts(self.m, self.d, np.array(keep), x[keep])
 
     def _set_capacity(self, cap: np.ndarray) -> None:
         """Capacity rows to ``cap``; the on/off links D ≤ U·y tightened to the bounds valid there."""
@@ -256,9 +255,7 @@ class WarmMix:
             over = t - d.contribution(vol) > 1e-10 * self.scale
             if not over.any():
                 break
-            from models.cuts import add_cuts
-
-            add_cuts(m, d, np.flatnonzero(over), vol[over])
+            self._add_cuts(m, d, np.flatnonzero(over), vol[over])
         if best_slate is None or not np.isfinite(best):
             raise SolverError("no feasible plan found while re-solving at other capacities")
         return WarmResult(best_slate, best, max(bound, best), rounds)
