@@ -9,17 +9,17 @@ differently.  :func:`fast_read` uses it only where the answer provably
 equals PyYAML's and returns ``None`` otherwise, so the caller falls back to
 PyYAML (which also gives the located error messages):
 
-- before parsing, the text is screened for every construct where the two
-  rule sets part: document markers and directives, tags, complex and merge
-  keys, numbers with a leading zero or a radix prefix, exponents without a
-  dot or without a sign (YAML 1.1 reads those as text);
+- before parsing, the text must match a whitelist of plain block style,
+  line by line (below): no document markers, directives, tags, anchors,
+  complex or merge keys, block scalars or continuation lines, and numbers
+  only as plain decimals, which both rule sets read alike;
 - after parsing, every text value and key is checked against PyYAML's own
   implicit resolvers: text that PyYAML would read as a boolean, number,
   null or date (``yes``, ``1:30``, ``2026-03-31``) declines the fast path,
   and so does any key that is not a plain scalar;
 - any parse error, including a key given twice, declines it too.
 
-The screens are conservative: a decline costs only time.  The differential
+Both checks are conservative: a decline costs only time.  The differential
 tests in ``tests/test_fastyaml.py`` hold the fast path to PyYAML's result.
 """
 
