@@ -121,6 +121,12 @@ def print_sweep(sw: Sweep, console: Console) -> None:
     else:
         console.print("No change of slate, binding limits or bottleneck on this range.")
     st = sw.stats
-    console.print(f"[dim]{len(sw.points)} points in {st['seconds']:.2f} s ({st['milp_solves']} MILP re-solves, "
-                  f"{st['qp_solves']} QP solves, {st['slates']} slates).[/]")
+    resolves = st.get("fast_solves", 0) + st["milp_solves"]
+
+    def count(k: int, what: str) -> str:
+        return f"{k} {what}{'' if k == 1 else 's'}"
+
+    console.print(f"[dim]{len(sw.points)} points in {st['seconds']:.2f} s ({count(resolves, 're-solve')} of the "
+                  f"mixed-integer plan, {count(st.get('dual_checks', 0), 'change point')} settled by the dual bound, "
+                  f"{count(st['qp_solves'], 'QP solve')}, {count(st['slates'], 'slate')}).[/]")
     console.print(f"[dim]{LABOUR_NOTE}[/]")
