@@ -25,8 +25,8 @@ from __future__ import annotations
 import numpy as np
 import pyomo.environ as pyo
 
-from .data import MixData, peak_contribution
-from .mix import _add_capacity, _add_options, _add_volumes, option_cost
+from models.data import MixData, peak_contribution
+from models.mix import _add_capacity, _add_options, _add_volumes, option_cost
 
 
 def build_cut_model(d: MixData, integer: bool = True) -> pyo.ConcreteModel:

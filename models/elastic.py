@@ -23,8 +23,8 @@ from __future__ import annotations
 import numpy as np
 import pyomo.environ as pyo
 
-from .data import MixData, committed_floor
-from .mix import _add_capacity
+from models.data import MixData, committed_floor
+from models.mix import _add_capacity
 
 
 def build_elastic_model(d: MixData) -> pyo.ConcreteModel:

@@ -38,7 +38,7 @@ import numpy as np
 import pyomo.environ as pyo
 from pyomo.core.expr.numeric_expr import LinearExpression
 
-from .data import MixData
+from models.data import MixData
 
 
 def usage_by_resource(d: MixData) -> list[tuple[np.ndarray, np.ndarray]]:

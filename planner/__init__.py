@@ -8,12 +8,12 @@ Public API::
     p.products_frame()            # pandas DataFrames of the same numbers
 """
 
-from .api import plan
-from .errors import InfeasibleError, PlannerError, ScenarioError, SolverError
-from .loading import load_scenario
-from .plan import Plan, ProductPlan, ResourcePlan
-from .schema import Scenario
-from .validate import validate_scenario
+from planner.api import plan
+from planner.errors import InfeasibleError, PlannerError, ScenarioError, SolverError
+from planner.scenario.loading import load_scenario
+from planner.output.plan import Plan, ProductPlan, ResourcePlan
+from planner.scenario.schema import Scenario
+from planner.scenario.validate import validate_scenario
 
 __all__ = ["plan", "load_scenario", "validate_scenario", "Plan", "ProductPlan", "ResourcePlan", "Scenario",
            "PlannerError", "ScenarioError", "InfeasibleError", "SolverError"]

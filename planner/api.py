@@ -8,17 +8,17 @@ import numpy as np
 
 from models.data import MixData
 
-from .demand import extrapolation_warnings
-from .economics import standalone
-from .errors import PlannerError, SolverError
-from .guard import check_extra_capacity, check_names, check_numbers, check_volumes
-from .infeasible import explain as explain_infeasible
-from .loading import load_scenario
-from .plan import Plan, ProductPlan, ResourcePlan, solver_versions
-from .prepare import mix_data
-from .scaling import solve_scaled
-from .schema import Scenario
-from .solve import DEFAULT_GAP, MixSolution, relative_gap
+from planner.scenario.demand import extrapolation_warnings
+from models.economics import standalone
+from planner.errors import PlannerError, SolverError
+from planner.scenario.guard import check_extra_capacity, check_names, check_numbers, check_volumes
+from planner.engine.infeasible import explain as explain_infeasible
+from planner.scenario.loading import load_scenario
+from planner.output.plan import Plan, ProductPlan, ResourcePlan, solver_versions
+from planner.scenario.arrays import mix_data
+from planner.engine.scaling import solve_scaled
+from planner.scenario.schema import Scenario
+from planner.engine.solve import DEFAULT_GAP, MixSolution, relative_gap
 
 #: Relative tolerance for calling a limit binding and for checking a plan's limits.
 LIMIT_TOL = 1e-7
@@ -73,7 +73,7 @@ def build_plan(s: Scenario, d: MixData, sol: MixSolution, warnings: list[str] | 
         cap = float(d.capacity[r])
         tol = LIMIT_TOL * max(abs(cap), 1.0)
         if used[r] > cap + tol:
-            from .errors import SolverError
+            from planner.errors import SolverError
 
             raise SolverError(f"the solved plan uses {used[r]:.9g} of {res.name} but it has {cap:.9g}: "
                               "the solver's answer breaks a limit, so no plan is reported (try --solver scip)")
@@ -99,7 +99,7 @@ def write_model_file(scenario: Scenario | str | Path, path: str | Path) -> Path:
     """Write the scenario's mixed-integer QP (the model of record) as an LP file with readable names."""
     from models.mix import build_mix_model
 
-    from .output import write_atomic
+    from planner.files import write_atomic
 
     if not isinstance(scenario, Scenario):
         scenario, _ = load_scenario(scenario)

@@ -3,7 +3,7 @@ straight into SCIP (pyscipopt) from the raw scenario numbers, independently of m
 
 from __future__ import annotations
 
-from planner.schema import Scenario
+from planner.scenario.schema import Scenario
 
 from .reference import _scip_model
 

@@ -13,7 +13,7 @@ import itertools
 
 import numpy as np
 
-from planner.schema import Scenario
+from planner.scenario.schema import Scenario
 
 
 def scip_plan(s: Scenario, gap: float = 1e-9, time_limit: float = 60.0) -> tuple[float, dict[str, float]]:
@@ -91,8 +91,8 @@ def _scip_model(s: Scenario, gap: float, time_limit: float, with_options: bool =
 def enumerate_slates(s: Scenario) -> float:
     """Best profit (before plant-wide fixed cost) over every slate, each a continuous QP."""
     from models.data import MixData  # noqa: F401  (documentation of what is enumerated)
-    from planner.prepare import mix_data
-    from planner.qp import solve_slate_qp
+    from planner.scenario.arrays import mix_data
+    from planner.engine.qp import solve_slate_qp
 
     d = mix_data(s)
     free = np.flatnonzero(d.can_stop)

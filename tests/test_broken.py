@@ -14,7 +14,7 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner
 
-from planner.cli import main
+from planner.cli.main import main
 
 BROKEN = Path(__file__).resolve().parent / "broken"
 

@@ -7,11 +7,11 @@ import pytest
 import yaml
 
 from planner import plan, validate_scenario
-from planner.capacity.analysis import add_capacity_analysis
-from planner.capacity.ranging import resource_ranges
-from planner.prepare import mix_data
-from planner.solve import solve_mix
-from planner.synth import synthetic_scenario
+from planner.analysis.capacity.analysis import add_capacity_analysis
+from planner.analysis.capacity.ranging import resource_ranges
+from planner.scenario.arrays import mix_data
+from planner.engine.solve import solve_mix
+from planner.scenario.synth import synthetic_scenario
 
 from .conftest import CASES, needs_scip
 
@@ -177,7 +177,7 @@ def test_choose_options_enumerates_whole_options(demo_path):
     import itertools
 
     from planner import load_scenario
-    from planner.capacity.data import with_options
+    from planner.analysis.capacity.data import with_options
 
     s, _ = load_scenario(demo_path)
     p = analysed(s, choose=True)
@@ -197,7 +197,7 @@ def test_plan_cli_json_has_ranges_and_options(demo_path, tmp_path):
 
     from click.testing import CliRunner
 
-    from planner.cli import main
+    from planner.cli.main import main
 
     out = tmp_path / "plan.json"
     res = CliRunner().invoke(main, ["plan", str(demo_path), "--json", str(out), "--choose-options"])
@@ -253,7 +253,7 @@ def test_slack_limit_cut_to_its_use_keeps_the_plan(seed):
 
 def test_warm_fallback_milp_agrees_with_the_fast_route(monkeypatch):
     """The persistent Pyomo cut MILP (used where the fast route declines) gives the same ranges."""
-    import planner.capacity.warm as warm
+    import planner.analysis.capacity.warm as warm
 
     s, _ = validate_scenario(synthetic_scenario(10, 3, seed=4, fixed_costs="near"))
     d = mix_data(s)

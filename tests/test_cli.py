@@ -7,7 +7,7 @@ import json
 import yaml
 from click.testing import CliRunner
 
-from planner.cli import main
+from planner.cli.main import main
 
 from .conftest import CASES, tiny
 

@@ -8,8 +8,8 @@ import shutil
 import pytest
 from click.testing import CliRunner
 
-from planner.cli import main
-from planner.loading import read_raw
+from planner.cli.main import main
+from planner.scenario.loading import read_raw
 
 from .conftest import CASES, ROOT
 

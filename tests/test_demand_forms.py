@@ -11,8 +11,8 @@ import shutil
 import pytest
 
 from planner import ScenarioError, load_scenario, plan, validate_scenario
-from planner.demand import from_elasticity, from_points, point_elasticity
-from planner.economics import standalone
+from planner.scenario.demand import from_elasticity, from_points, point_elasticity
+from models.economics import standalone
 
 from .conftest import CASES, tiny
 
@@ -97,7 +97,7 @@ def test_history_fills_line_and_uncertainty(tmp_path):
     shutil.copy(CASES / "rich_sales.csv", tmp_path / "sales.csv")
     raw = product(history="sales.csv", product="hub")
     s, warnings = validate_scenario(raw, base_dir=tmp_path)
-    from planner.fit import fit_history
+    from planner.scenario.fit import fit_history
 
     ref = next(f for f in fit_history(tmp_path / "sales.csv")[0] if f.product == "hub")  # same fit, directly
     p = s.products[0]

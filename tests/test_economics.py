@@ -8,7 +8,7 @@ import math
 
 import pytest
 
-from planner.economics import standalone
+from models.economics import standalone
 
 
 def one(a, b, v, F, cap=math.inf):

@@ -9,13 +9,13 @@ import pytest
 
 from models.data import MixData
 from planner import validate_scenario
-from planner.fastqp import solve_slate_fast
-from planner.fastroute import applies, solve_fast
-from planner.lagrange import choice_bounds, evaluate, minimise_dual
-from planner.prepare import mix_data
-from planner.qp import solve_slate_qp
-from planner.solve import _outer_approximation
-from planner.synth import synthetic_scenario
+from planner.engine.slateqp import solve_slate_fast
+from planner.engine.fastroute import applies, solve_fast
+from planner.engine.lagrange import choice_bounds, evaluate, minimise_dual
+from planner.scenario.arrays import mix_data
+from planner.engine.qp import solve_slate_qp
+from planner.engine.solve import _outer_approximation
+from planner.scenario.synth import synthetic_scenario
 
 from .conftest import needs_scip
 from .reference import enumerate_slates, scip_plan

@@ -16,9 +16,9 @@ import yaml
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.fastyaml import fast_read, yaml_rs
-from planner.loading import read_yaml_checked
-from planner.synth import synthetic_scenario
+from planner.scenario.fastyaml import fast_read, yaml_rs
+from planner.scenario.loading import read_yaml_checked
+from planner.scenario.synth import synthetic_scenario
 
 pytestmark = pytest.mark.skipif(yaml_rs is None, reason="yaml-rs is not installed")
 
@@ -91,7 +91,7 @@ def test_a_generated_catalogue_takes_the_fast_path_and_agrees() -> None:
 
 
 def test_reading_a_file_gives_pyyaml_values(tmp_path: Path, monkeypatch) -> None:
-    import planner.loading as loading
+    import planner.scenario.loading as loading
 
     taken = []
     monkeypatch.setattr(loading, "FAST_FROM_BYTES", 0)  # offer this small file to the fast reader too

@@ -7,7 +7,7 @@ import math
 import numpy as np
 import pytest
 
-from planner.fit import fit_history, fit_line, ols, read_history, t_quantile
+from planner.scenario.fit import fit_history, fit_line, ols, read_history, t_quantile
 
 scipy_stats = pytest.importorskip("scipy.stats", reason="scipy (test extra) is the reference: pip install -e '.[test]'")
 

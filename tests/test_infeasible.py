@@ -16,9 +16,9 @@ import yaml
 from click.testing import CliRunner
 
 from planner import InfeasibleError, plan, validate_scenario
-from planner.cli import main
-from planner.infeasible import conflicts, iis_names, smallest_cuts
-from planner.prepare import mix_data
+from planner.cli.main import main
+from planner.engine.infeasible import conflicts, iis_names, smallest_cuts
+from planner.scenario.arrays import mix_data
 
 
 def product(name, usage, **kw):

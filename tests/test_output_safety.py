@@ -13,8 +13,8 @@ import pytest
 import yaml
 from click.testing import CliRunner
 
-from planner.cli import main
-from planner.output import OutputPathError, inside, safe_filename, write_atomic, write_text_atomic
+from planner.cli.main import main
+from planner.files import OutputPathError, inside, safe_filename, write_atomic, write_text_atomic
 
 from .conftest import ROOT, tiny
 

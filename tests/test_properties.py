@@ -30,7 +30,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from planner import InfeasibleError, PlannerError, ScenarioError, plan, validate_scenario
-from planner.loading import load_scenario
+from planner.scenario.loading import load_scenario
 
 GAP = 1e-6
 LIMIT_REL = 1e-7

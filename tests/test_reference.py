@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 
 from planner import plan, validate_scenario
-from planner.synth import synthetic_scenario
+from planner.scenario.synth import synthetic_scenario
 
 from .conftest import needs_scip
 from .reference import enumerate_slates, scip_plan

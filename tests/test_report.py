@@ -19,7 +19,7 @@ from PIL import Image
 from click.testing import CliRunner
 from rich.console import Console
 
-from planner.cli import main
+from planner.cli.main import main
 
 from .browser import find_chromium, open_page
 from .conftest import tiny
@@ -173,7 +173,7 @@ def _marks(chart):
 
 def test_oak_bookcase_marks_by_hand(demo_plan, demo_path):
     from planner import load_scenario
-    from planner.report.charts import product_chart
+    from planner.output.report.charts import product_chart
 
     s, _ = load_scenario(demo_path)
     pp = demo_plan.products[0]
@@ -189,7 +189,7 @@ def test_oak_bookcase_marks_by_hand(demo_plan, demo_path):
 
 def test_every_product_chart_marks_its_standalone_economics_and_the_mix(demo_plan, demo_path):
     from planner import load_scenario
-    from planner.report.charts import product_chart
+    from planner.output.report.charts import product_chart
 
     s, _ = load_scenario(demo_path)
     for pp, sp in zip(demo_plan.products, s.products):
@@ -227,8 +227,8 @@ def test_every_product_chart_marks_its_standalone_economics_and_the_mix(demo_pla
 
 def test_sweep_chart_from_a_sweep_dict_and_file(demo_plan, tmp_path):
     from planner.errors import ScenarioError
-    from planner.report.charts import sweep_chart
-    from planner.report.cli import load_sweep_file
+    from planner.output.report.charts import sweep_chart
+    from planner.cli.report import load_sweep_file
 
     sweep = {"resource": SWEPT, "points": [{"capacity": c, "profit": 1000.0 + c, "shadow_price": 5.0,
                                             "volumes": {}} for c in (3000.0, 3900.0, 4800.0)],
@@ -261,7 +261,7 @@ def test_unknown_sweep_resource_is_a_clean_error(demo_path, tmp_path):
 
 def test_options_valued_by_resolving_match_hand_calculation(tmp_path):
     from planner import load_scenario, plan
-    from planner.report.replan import value_options
+    from planner.analysis.replan import value_options
 
     raw = tiny()
     raw["resources"][0]["capacity"] = 40.0
@@ -284,7 +284,7 @@ def test_options_valued_by_resolving_match_hand_calculation(tmp_path):
 # --- terminal at 80 columns ------------------------------------------------------------------------------------
 
 def test_terminal_tables_fit_80_columns_without_wrapping_names(demo_plan):
-    from planner.terminal import print_plan
+    from planner.output.terminal import print_plan
 
     con = Console(width=80, record=True, color_system=None)
     print_plan(demo_plan, con)
@@ -298,7 +298,7 @@ def test_terminal_tables_fit_80_columns_without_wrapping_names(demo_plan):
 
 
 def test_money_parts_a_currency_code_from_the_amount():
-    from planner.terminal import money
+    from planner.output.terminal import money
 
     assert money(1234567.4, "€") == "€1,234,567"
     assert money(-988.2, "CHF") == "-CHF 988"
@@ -307,7 +307,7 @@ def test_money_parts_a_currency_code_from_the_amount():
 
 
 def test_terminal_drops_optional_columns_when_narrow(demo_plan):
-    from planner.terminal import products_table
+    from planner.output.terminal import products_table
 
     wide = Console(width=120, record=True, color_system=None)
     wide.print(products_table(demo_plan, wide))

@@ -18,12 +18,12 @@ import pytest
 from click.testing import CliRunner
 
 from planner import load_scenario, validate_scenario
-from planner.cli import main
-from planner.prepare import mix_data
-from planner.risk import run_risk
-from planner.risk.evaluate import sample_arrays, sample_data
-from planner.risk.fastmix import SampleSolver
-from planner.risk.sampling import draw_samples
+from planner.cli.main import main
+from planner.scenario.arrays import mix_data
+from planner.analysis.risk import run_risk
+from planner.analysis.risk.evaluate import sample_arrays, sample_data
+from planner.analysis.risk.fastmix import SampleSolver
+from planner.analysis.risk.sampling import draw_samples
 
 from .conftest import needs_scip
 
@@ -225,7 +225,7 @@ def test_cli_risk_prints_the_chance_of_a_loss_and_writes_json(tmp_path):
 def test_cli_risk_unreachable_scheduler_is_a_clear_error(tmp_path, monkeypatch):
     import yaml
 
-    monkeypatch.setattr("planner.risk.run.CONNECT_TIMEOUT", "1s")
+    monkeypatch.setattr("planner.analysis.risk.run.CONNECT_TIMEOUT", "1s")
 
     path = tmp_path / "small.yaml"
     path.write_text(yaml.safe_dump(small_uncertain()))
@@ -235,7 +235,7 @@ def test_cli_risk_unreachable_scheduler_is_a_clear_error(tmp_path, monkeypatch):
 
 
 def test_robust_choice_scores_the_point_plan_like_the_evaluation_and_charts_are_written(tmp_path):
-    from planner.risk.charts import write_charts
+    from planner.output.risk_charts import write_charts
 
     s, _ = validate_scenario(small_uncertain())
     r = run_risk(s, samples=60, seed=4, workers=0)

@@ -13,7 +13,7 @@ pytestmark = pytest.mark.benchmark
 def test_risk_speed_table(demo_path, request):
     if "benchmark" not in (request.config.getoption("-m") or ""):
         pytest.skip("speed benchmark: run with -m benchmark -s")
-    from planner.risk import run_risk
+    from planner.analysis.risk import run_risk
 
     rows = []
     for samples, workers in ((200, 0), (1000, 0), (1000, os.cpu_count() or 1)):

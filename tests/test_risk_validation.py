@@ -120,7 +120,7 @@ def test_correlations():
 
 
 def test_correlations_that_cannot_hold_together():
-    from planner.risk.sampling import draw_samples
+    from planner.analysis.risk.sampling import draw_samples
 
     raw = two_products()
     raw["products"].append({"name": "gizmo", "price_intercept": 60, "price_slope": 0.1, "unit_cost": 20,

@@ -6,8 +6,8 @@ import pytest
 import yaml
 
 from planner import ScenarioError, load_scenario, validate_scenario
-from planner import loading, validate
-from planner.units import amount_hint, canonical, split_amount
+from planner.scenario import loading, validate
+from planner.scenario.units import amount_hint, canonical, split_amount
 
 from .conftest import tiny
 

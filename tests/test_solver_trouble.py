@@ -12,11 +12,11 @@ from click.testing import CliRunner
 
 from planner import SolverError, plan, validate_scenario
 from planner.api import build_plan
-from planner.cli import main
-from planner.prepare import mix_data
-from planner.scaling import scale, solve_scaled
-from planner.solve import MixSolution, solve_mix
-from planner.synth import synthetic_scenario
+from planner.cli.main import main
+from planner.scenario.arrays import mix_data
+from planner.engine.scaling import scale, solve_scaled
+from planner.engine.solve import MixSolution, solve_mix
+from planner.scenario.synth import synthetic_scenario
 
 from .conftest import needs_scip, tiny
 
@@ -54,9 +54,9 @@ def test_time_limit_through_the_cli(hard, tmp_path):
 def test_missing_highs_names_what_to_install(monkeypatch, tmp_path):
     from pyomo.contrib.appsi.solvers import Highs
 
-    import planner.fastroute
+    import planner.engine.fastroute
 
-    monkeypatch.setattr(planner.fastroute, "applies", lambda d: False)  # the general (Pyomo) route
+    monkeypatch.setattr(planner.engine.fastroute, "applies", lambda d: False)  # the general (Pyomo) route
     monkeypatch.setattr(Highs, "available", lambda self: False)
     f = tmp_path / "s.yaml"
     f.write_text(yaml.safe_dump(tiny(fixed_cost=100.0)))  # an on/off choice: the cut MILP is used
@@ -68,13 +68,13 @@ def test_missing_highs_names_what_to_install(monkeypatch, tmp_path):
 def test_failing_qp_names_what_to_install(monkeypatch):
     import pyomo.contrib.solver.common.factory as factory
 
-    import planner.fastroute
+    import planner.engine.fastroute
 
     class Broken:
         def solve(self, *a, **k):
             raise RuntimeError("library not loaded")
 
-    monkeypatch.setattr(planner.fastroute, "applies", lambda d: False)  # the general (Pyomo) route
+    monkeypatch.setattr(planner.engine.fastroute, "applies", lambda d: False)  # the general (Pyomo) route
     monkeypatch.setattr(factory, "SolverFactory", lambda name: Broken())
     with pytest.raises(SolverError, match=r"library not loaded \(reinstall highspy: pip install 'highspy==1.15.1'\)"):
         plan(validate_scenario(tiny())[0])

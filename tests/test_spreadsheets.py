@@ -8,9 +8,9 @@ import pytest
 import yaml
 
 from planner import ScenarioError, load_scenario, plan
-from planner.io.tables import from_tables, to_tables, Table
-from planner.io.writers import write_scenario
-from planner.loading import read_raw
+from planner.scenario.forms.tables import from_tables, to_tables, Table
+from planner.scenario.forms.writers import write_scenario
+from planner.scenario.loading import read_raw
 
 from .conftest import CASES, ROOT
 
@@ -70,7 +70,7 @@ def test_unknown_sections_and_nested_values_survive_tables():
 def test_template_filled_in_plans(tmp_path):
     from openpyxl import load_workbook
 
-    from planner.io.xlsx import write_template
+    from planner.scenario.forms.xlsx import write_template
 
     path = write_template(tmp_path / "t.xlsx")
     wb = load_workbook(path)

@@ -10,11 +10,11 @@ import pytest
 from click.testing import CliRunner
 
 from planner import load_scenario, validate_scenario
-from planner.capacity.sweep import run_sweep
-from planner.cli import main
-from planner.prepare import mix_data
-from planner.solve import solve_mix
-from planner.synth import synthetic_scenario
+from planner.analysis.capacity.sweep import run_sweep
+from planner.cli.main import main
+from planner.scenario.arrays import mix_data
+from planner.engine.solve import solve_mix
+from planner.scenario.synth import synthetic_scenario
 
 from .conftest import CASES
 

@@ -40,7 +40,7 @@ from pathlib import Path
 
 import yaml
 
-from planner.cli import CAPACITY_AUTO_MAX
+from planner.cli.main import CAPACITY_AUTO_MAX
 
 ROOT = Path(__file__).resolve().parents[2]
 GAP = 1e-4
@@ -59,7 +59,7 @@ QUICK = {"50x10-near", "12x4-near", "1000x20-some"}
 
 
 def write_scenario(folder: Path, key: str, n: int, m: int, fixed: str, density: float) -> Path:
-    from planner.synth import synthetic_scenario
+    from planner.scenario.synth import synthetic_scenario
 
     path = folder / f"{key}.yaml"
     raw = synthetic_scenario(n, m, seed=1, fixed_costs=fixed, density=density)
@@ -86,10 +86,10 @@ def whole_command(path: Path, out: Path, *extra: str) -> dict:
 def stages(path: Path) -> tuple[dict, object, object, object]:
     """Each stage timed in this process; returns (timings, scenario, data, solution)."""
     from planner.api import build_plan
-    from planner.loading import read_raw
-    from planner.prepare import mix_data
-    from planner.solve import solve_mix
-    from planner.validate import validate_scenario
+    from planner.scenario.loading import read_raw
+    from planner.scenario.arrays import mix_data
+    from planner.engine.solve import solve_mix
+    from planner.scenario.validate import validate_scenario
 
     t = [time.perf_counter()]
     raw = read_raw(path)

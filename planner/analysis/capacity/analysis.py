@@ -1,0 +1,72 @@
+"""The capacity analysis added to a Plan: ranges on its resources, options in its extras."""
+
+from __future__ import annotations
+
+import time
+
+import numpy as np
+
+from planner.errors import PlannerError
+from planner.engine.slateqp import solve_slate_fast
+from planner.output.plan import Plan
+from planner.scenario.arrays import mix_data
+from planner.scenario.schema import Scenario
+from planner.analysis.capacity.options import choose_options, value_options
+from planner.analysis.capacity.ranging import resource_ranges
+
+
+#: Seconds the capacity analysis run by default (by ``plan`` and ``report``) may spend re-checking range
+#: ends for better slates, or twice the plan's solve if longer; ``plan --capacity`` has no limit.
+AUTO_BUDGET = 1.0
+
+
+def auto_budget(p: Plan) -> float:
+    """The default analysis's re-check budget for plan ``p`` (seconds)."""
+    return max(AUTO_BUDGET, 2 * float(p.solver.get("seconds", 0.0) or 0.0))
+
+
+def plan_slate(p: Plan, can_stop: np.ndarray) -> np.ndarray:
+    """The plan's slate as the fixed-slate QP needs it (products without a choice always 'on')."""
+    return np.array([x.running for x in p.products], dtype=bool) | ~can_stop
+
+
+def add_capacity_analysis(p: Plan, s: Scenario, choose: bool = False, rel_gap: float = 1e-7,
+                          budget: float | None = None) -> Plan:
+    """Fill each resource's shadow-price range and the options' values (and the joint pick) in ``p``.
+
+    Ranges: ``shadow_price_range`` [low, high] (None for no end), ``shadow_price_slope``
+    and the reasons; ``p.extras['options']`` one entry per option; with ``choose``,
+    ``p.extras['option_pick']``.  ``budget``: seconds for re-checking the range ends
+    for better slates (None: no limit); ends left unchecked are flagged and warned of.
+    Returns ``p``.
+    """
+    try:
+        return _analyse(p, s, choose, rel_gap, budget)
+    except PlannerError as e:  # the plan itself stands; say what is missing and why
+        p.warnings.append(f"capacity analysis not done: {e}")
+        return p
+
+
+def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float | None) -> Plan:
+    d = mix_data(s)
+    slate = plan_slate(p, d.can_stop)
+    qp = solve_slate_fast(d, slate)
+    duals = qp.duals if qp.status == "optimal" else np.array([r.shadow_price for r in p.resources])
+    deadline = None if budget is None else time.perf_counter() + budget
+    ranges = resource_ranges(d, slate, deadline=deadline)
+    for rp, rg in zip(p.resources, ranges):
+        rp.shadow_price_range = [rg.low, rg.high]
+        rp.shadow_price_slope = rg.slope
+        rp.range_low_reason, rp.range_high_reason = rg.why_low, rg.why_high
+        rp.range_slates_checked = rg.slates_checked
+    unchecked = [rg.resource for rg in ranges if not rg.slates_checked]
+    if unchecked:
+        p.warnings.append(f"shadow-price ranges of {len(unchecked)} of {len(ranges)} resources were not fully "
+                          f"re-checked for a better slate within the {budget:.2g} s budget ({', '.join(unchecked[:5])}"
+                          f"{', …' if len(unchecked) > 5 else ''}): their ranges hold for this slate; "
+                          "run planner plan --capacity to check them all")
+    base, values = value_options(s, d, slate, duals, rel_gap)
+    p.extras["options"] = [v.to_dict() for v in values]
+    if choose and s.options:
+        p.extras["option_pick"] = choose_options(s, d, base, slate, rel_gap)
+    return p

@@ -1,0 +1,77 @@
+"""`planner report`: plan a scenario and write the HTML report, the workbook and the charts into a folder."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import click
+
+from planner.errors import Problem, ScenarioError
+
+
+def load_sweep_file(path: Path) -> dict:
+    """A sweep JSON file (``points`` [{capacity, profit, shadow_price, ...}], ``breakpoints``), checked."""
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except OSError as e:
+        raise ScenarioError([Problem(str(path), f"cannot be read: {e.strerror or e}")]) from None
+    except json.JSONDecodeError as e:
+        raise ScenarioError([Problem(f"{path}, line {e.lineno}", f"is not valid JSON: {e.msg}")]) from None
+    points = data.get("points") if isinstance(data, dict) else None
+    if not isinstance(points, list) or not all(isinstance(p, dict) and "capacity" in p and "profit" in p
+                                               for p in points):
+        raise ScenarioError([Problem(str(path), "is not a sweep: it needs 'points', a list of "
+                                     "{capacity, profit, shadow_price}", "write one with `planner sweep --json`")])
+    data.setdefault("breakpoints", [])
+    return data
+
+
+def register(main: click.Group) -> None:
+    from planner.cli.main import console, friendly, solve_options
+
+    @main.command("report")
+    @click.argument("scenario", type=click.Path(path_type=Path))
+    @click.option("--out", "out_dir", type=click.Path(path_type=Path), default=Path("report"), show_default=True,
+                  help="Folder for report.html, plan.xlsx, plan.json and charts/.")
+    @click.option("--sweep", "sweep_resource", default=None, metavar="RESOURCE",
+                  help="Also sweep this resource's capacity (50 % to 150 % of today's, re-solving at each point).")
+    @click.option("--sweep-json", "sweep_file", type=click.Path(path_type=Path), default=None, metavar="FILE",
+                  help="Show a sweep already computed (JSON with 'points' and 'breakpoints').")
+    @click.option("--sweep-steps", type=click.IntRange(min=2, max=200), default=11, show_default=True,
+                  help="Points in a --sweep.")
+    @click.option("--no-options", is_flag=True, help="Do not value the scenario's capacity options.")
+    @solve_options
+    @friendly
+    def report_cmd(scenario: Path, out_dir: Path, sweep_resource: str | None, sweep_file: Path | None,
+                   sweep_steps: int, no_options: bool, rel_gap: float, time_limit: float | None,
+                   solver: str | None, quiet: bool, debug: bool) -> None:
+        """Plan SCENARIO and write a report a manager can read: HTML page, Excel workbook, charts."""
+        from planner.api import plan
+        from planner.scenario.loading import load_scenario
+        from planner.output.report import make_context, write_report
+        from planner.analysis.replan import sweep_for_report
+
+        s, warnings = load_scenario(scenario)
+        solve = {"rel_gap": rel_gap, "time_limit": time_limit, "solver": solver}
+        p = plan(s, **solve)
+        p.warnings[:0] = [w for w in warnings if w not in p.warnings]
+        sweep = None
+        if sweep_file is not None:
+            sweep = load_sweep_file(sweep_file)
+        elif sweep_resource is not None:
+            if not quiet:
+                console.print(f"[dim]sweeping {sweep_resource} at {sweep_steps} capacities ...[/]")
+            sweep = sweep_for_report(s, sweep_resource, steps=sweep_steps, base=p, **solve)
+        if not quiet and s.options and not no_options and not p.extras.get("options"):
+            console.print(f"[dim]valuing {len(s.options)} capacity options by re-solving ...[/]")
+        ctx = make_context(p, s, source=scenario, sweep=sweep, value_options=not no_options, **solve)
+        paths = write_report(p, s, out_dir, context=ctx)
+        if not quiet:
+            from planner.output.terminal import print_plan
+
+            print_plan(p, console, standalone=False)
+            charts = sum(1 for k in paths if k.startswith("chart:")) // 2
+            console.print(f"\nreport written to [bold]{paths['html']}[/]\n"
+                          f"  workbook {paths['xlsx']}, JSON {paths['json']}, "
+                          f"{charts} charts (PNG and SVG) in {out_dir / 'charts'}")

@@ -1,0 +1,1 @@
+"""The solve engine: every HiGHS model the planner builds, behind one object."""

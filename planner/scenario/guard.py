@@ -1,0 +1,89 @@
+"""Last checks before the solver, for a Scenario built or changed in code.
+
+``validate_scenario`` checks everything a file can get wrong; but a notebook
+can change a validated Scenario with ``model_copy(update=...)``, which pydantic
+does not validate again, or build one without the cross-checks.  These cheap
+checks (linear in the usage entries; numpy on the arrays) make sure nothing
+reaches the solver that the validator would have refused: names used in
+``usage`` are defined, names are unique, and every number is finite and ≥ 0
+(a cap may be infinite).  Problems are reported as the validator reports them.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+
+import numpy as np
+
+from models.data import MixData
+
+from planner.errors import Problem, ScenarioError
+from planner.scenario.schema import Scenario
+from planner.scenario.validate import did_you_mean
+
+_SOURCE = "scenario (changed after validation? check it with planner.validate_scenario)"
+
+
+def check_names(s: Scenario) -> None:
+    """Raise ScenarioError if usage names an undefined resource or names repeat."""
+    problems = []
+    for section, items in (("products", s.products), ("resources", s.resources)):
+        for name, count in Counter(x.name for x in items).items():
+            if count > 1:
+                problems.append(Problem(f"{section}[{name}]", f"name used {count} times", "names must be unique"))
+    defined = {r.name for r in s.resources}
+    for p in s.products:
+        for res in p.usage:
+            if res not in defined:
+                problems.append(Problem(f"products[{p.name}].usage.{res}", "names a resource that is not defined",
+                                        did_you_mean(res, defined) or "add it under resources or fix the name"))
+    if problems:
+        raise ScenarioError(problems, _SOURCE)
+
+
+def check_extra_capacity(s: Scenario, extra: dict[str, float] | None) -> None:
+    """Raise ScenarioError if ``extra`` (resource name → amount added) names an undefined resource."""
+    defined = {r.name for r in s.resources}
+    unknown = sorted(set(extra or {}) - defined)
+    if unknown:
+        raise ScenarioError([Problem(f"extra_capacity.{n}", "names a resource that is not defined",
+                                     did_you_mean(n, defined)) for n in unknown])
+
+
+def check_numbers(s: Scenario, d: MixData) -> None:
+    """Raise ScenarioError for any number that is not finite and ≥ 0 (caps may be infinite)."""
+    problems = []
+    fields = {"price_intercept": d.a, "price_slope": d.b, "unit_cost": d.v, "fixed_cost": d.F,
+              "min_volume": d.committed, "min_run": d.min_run}
+    for field, values in fields.items():
+        for k in np.flatnonzero(~np.isfinite(values) | (values < 0)):
+            problems.append(Problem(f"products[{d.products[k]}].{field}", f"must be a finite number >= 0 "
+                                    f"(got {float(values[k])!r})"))
+    for k in np.flatnonzero(np.isnan(d.cap) | (d.cap < 0)):
+        problems.append(Problem(f"products[{d.products[k]}].max_volume", f"must be >= 0 (got {float(d.cap[k])!r})"))
+    for j in np.flatnonzero(~np.isfinite(d.use_amt) | (d.use_amt < 0)):
+        problems.append(Problem(f"products[{d.products[d.use_prod[j]]}].usage.{d.resources[d.use_res[j]]}",
+                                f"must be a finite number >= 0 (got {float(d.use_amt[j])!r})"))
+    for r in np.flatnonzero(~np.isfinite(d.capacity) | (d.capacity < 0)):
+        problems.append(Problem(f"resources[{d.resources[r]}].capacity",
+                                f"must be a finite number >= 0 (got {float(d.capacity[r])!r})"))
+    if problems:
+        raise ScenarioError(problems, _SOURCE)
+
+
+def check_volumes(d: MixData, volume: np.ndarray, running: np.ndarray, rel_tol: float) -> None:
+    """Raise SolverError if solved volumes break a cap, a commitment or a minimum run (beyond ``rel_tol``)."""
+    from planner.errors import SolverError
+
+    runs = np.asarray(running, dtype=bool) | ~d.can_stop
+    floor = np.where(runs, np.where(d.must_run | d.can_stop, d.run_floor, 0.0), 0.0)
+    bad = []
+    for k in np.flatnonzero(volume > d.cap * (1 + rel_tol) + rel_tol):
+        bad.append(f"{d.products[k]} at {volume[k]:.9g} is above its max_volume {d.cap[k]:.9g}")
+    for k in np.flatnonzero(volume < floor * (1 - rel_tol) - rel_tol):
+        bad.append(f"{d.products[k]} at {volume[k]:.9g} is below its floor {floor[k]:.9g}")
+    for k in np.flatnonzero(~runs & (volume > 0)):
+        bad.append(f"{d.products[k]} is shut down but has volume {volume[k]:.9g}")
+    if bad:
+        raise SolverError("the solved plan breaks a limit, so no plan is reported (try --solver scip): "
+                          + "; ".join(bad))
