@@ -26,15 +26,15 @@ import numpy as np
 import pyomo.environ as pyo
 
 from models.data import MixData, peak_contribution
-from models.mix import _add_capacity, _add_options, _add_volumes, option_cost
+from models.mix import add_capacity, add_options, add_volumes, option_cost
 
 
 def build_cut_model(d: MixData, integer: bool = True) -> pyo.ConcreteModel:
     """The cut MILP with no cuts yet but the peak cut t_i ≤ max contribution·y_i."""
     m = pyo.ConcreteModel(name="product_mix_cuts")
-    y = _add_volumes(m, d, None, integer)
-    _add_options(m, d, None, integer)
-    _add_capacity(m, d)
+    y = add_volumes(m, d, None, integer)
+    add_options(m, d, None, integer)
+    add_capacity(m, d)
     m.running_of = y  # per product: Pyomo var or the constant 1
     peak = peak_contribution(d)
     m.contribution = pyo.Var(m.P, bounds={p: (None, max(peak[k], 0.0) + 1.0) for k, p in enumerate(d.products)})

@@ -24,7 +24,7 @@ import numpy as np
 import pyomo.environ as pyo
 
 from models.data import MixData, committed_floor
-from models.mix import _add_capacity
+from models.mix import add_capacity
 
 
 def build_elastic_model(d: MixData) -> pyo.ConcreteModel:
@@ -41,7 +41,7 @@ def build_elastic_model(d: MixData) -> pyo.ConcreteModel:
     m.C = pyo.Set(initialize=held, ordered=True)
     m.shortfall = pyo.Var(m.C, bounds={p: (0.0, float(floor[idx[p]])) for p in held})
     m.floor = pyo.Constraint(m.C, rule=lambda m, p: m.volume[p] + m.shortfall[p] >= float(floor[idx[p]]))
-    _add_capacity(m, d)
+    add_capacity(m, d)
     m.cut = pyo.Objective(expr=pyo.quicksum(m.shortfall[p] / float(floor[idx[p]]) for p in held)
                           if held else 0.0, sense=pyo.minimize)
     return m

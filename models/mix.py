@@ -54,7 +54,7 @@ def usage_by_resource(d: MixData) -> list[tuple[np.ndarray, np.ndarray]]:
     return out
 
 
-def _add_volumes(m: pyo.ConcreteModel, d: MixData, slate: Sequence[bool] | None, integer: bool) -> list:
+def add_volumes(m: pyo.ConcreteModel, d: MixData, slate: Sequence[bool] | None, integer: bool) -> list:
     """Volume variables, running decisions and their links; returns y per product (var or 0/1)."""
     m.P = pyo.Set(initialize=list(d.products), ordered=True)
     m.R = pyo.Set(initialize=list(d.resources), ordered=True)
@@ -81,7 +81,7 @@ def _add_volumes(m: pyo.ConcreteModel, d: MixData, slate: Sequence[bool] | None,
     return [m.running[p] if d.can_stop[k] else 1 for k, p in enumerate(d.products)]
 
 
-def _add_options(m: pyo.ConcreteModel, d: MixData, slate: Sequence[bool] | None, integer: bool) -> None:
+def add_options(m: pyo.ConcreteModel, d: MixData, slate: Sequence[bool] | None, integer: bool) -> None:
     """option_scale[o] ∈ {0, 1} (all or nothing) or [0, 1] (usable in part); nothing if no options."""
     if not d.n_options:
         return
@@ -101,7 +101,7 @@ def option_cost(m: pyo.ConcreteModel, d: MixData):
     return pyo.quicksum(float(d.opt_cost[k]) * m.option_scale[o] for k, o in enumerate(d.options))
 
 
-def _add_capacity(m: pyo.ConcreteModel, d: MixData) -> None:
+def add_capacity(m: pyo.ConcreteModel, d: MixData) -> None:
     """capacity[r]: Σ_i h_ri·D_i − Σ_o A_ro·s_o ≤ H_r (resource units)."""
     cols = usage_by_resource(d)
     vol = [m.volume[p] for p in d.products]
@@ -121,9 +121,9 @@ def _add_capacity(m: pyo.ConcreteModel, d: MixData) -> None:
 def build_mix_model(d: MixData, slate: Sequence[bool] | None = None, integer: bool = True) -> pyo.ConcreteModel:
     """The mixed-integer QP (or, with ``slate``, the fixed-slate QP) as a Pyomo model."""
     m = pyo.ConcreteModel(name="product_mix")
-    y = _add_volumes(m, d, slate, integer)
-    _add_options(m, d, slate, integer)
-    _add_capacity(m, d)
+    y = add_volumes(m, d, slate, integer)
+    add_options(m, d, slate, integer)
+    add_capacity(m, d)
     margin, b, F = d.margin, d.b, d.F
     terms = []
     for k, p in enumerate(d.products):

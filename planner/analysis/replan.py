@@ -20,10 +20,12 @@ Amounts in the scenario's currency per period; capacities in the resource's unit
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Any
 
 from planner.errors import InfeasibleError, ScenarioError
 from planner.output.plan import Plan
+from planner.output.report.context import ReportContext, make_context
 from planner.scenario.schema import Scenario
 
 #: Fractions of a part-usable option's amount tried by :func:`value_options`.
@@ -146,3 +148,23 @@ def value_options(scenario: Scenario, base: Plan, **solve: Any) -> list[dict[str
             # An option that loses money at every step is shown at its full amount: what buying it all costs.
             out.append(best if best["net_gain"] > 0 else rows[-1])
     return out
+
+
+def report_context(plan: Plan, scenario: Scenario, source: str | Path = "", sweep: dict[str, Any] | None = None,
+                   with_options: bool = True, **solve: Any) -> ReportContext:
+    """A report's inputs, with the analyses it shows run first (``solve``: rel_gap, time_limit, solver).
+
+    Where the plan has not been through the capacity analysis it is run (shadow-price ranges and exact
+    option values, under the default time budget); where that leaves options unvalued they are valued
+    by :func:`value_options`.
+    """
+    from planner.analysis.capacity.analysis import add_capacity_analysis, auto_budget
+
+    if with_options and "options" not in plan.extras:
+        add_capacity_analysis(plan, scenario, budget=auto_budget(plan))
+    options = plan.extras.get("options")
+    origin = "capacity analysis" if options else ""
+    if not options and scenario.options and with_options:
+        options = value_options(scenario, plan, **solve)
+        origin = "re-solved for this report"
+    return make_context(plan, scenario, source=source, sweep=sweep, options=options, options_source=origin)

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import click
 from rich.markup import escape
-from planner.output.terminal import _table
+from planner.output.text import table
 
 from planner.errors import EXIT_BAD_INPUT, PlannerError, Problem
 
@@ -53,7 +53,7 @@ def _interval(ci: tuple[float | None, float | None]) -> str:
 def fit_table(lines, level: float = 0.95) -> Table:
     """The fits as a terminal table: line with intervals, R², n, observed price range, elasticity."""
     pct = f"{100 * level:g}%"
-    t = _table("Price–demand lines fitted: price = intercept − slope × volume")
+    t = table("Price–demand lines fitted: price = intercept − slope × volume")
     for col in ("product", f"intercept\n{pct} CI", f"slope\n{pct} CI", "R²", "n", "prices\nseen", "ε at\nmean"):
         t.add_column(col, justify="left" if col == "product" else "right", no_wrap=col != "product",
                      min_width=8 if col == "product" else None)

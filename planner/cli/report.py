@@ -49,8 +49,8 @@ def register(main: click.Group) -> None:
         """Plan SCENARIO and write a report a manager can read: HTML page, Excel workbook, charts."""
         from planner.api import plan
         from planner.scenario.loading import load_scenario
-        from planner.output.report import make_context, write_report
-        from planner.analysis.replan import sweep_for_report
+        from planner.analysis.replan import report_context, sweep_for_report
+        from planner.output.report import write_report
 
         s, warnings = load_scenario(scenario)
         solve = {"rel_gap": rel_gap, "time_limit": time_limit, "solver": solver}
@@ -65,7 +65,7 @@ def register(main: click.Group) -> None:
             sweep = sweep_for_report(s, sweep_resource, steps=sweep_steps, base=p, **solve)
         if not quiet and s.options and not no_options and not p.extras.get("options"):
             console.print(f"[dim]valuing {len(s.options)} capacity options by re-solving ...[/]")
-        ctx = make_context(p, s, source=scenario, sweep=sweep, value_options=not no_options, **solve)
+        ctx = report_context(p, s, source=scenario, sweep=sweep, with_options=not no_options, **solve)
         paths = write_report(p, s, out_dir, context=ctx)
         if not quiet:
             from planner.output.terminal import print_plan

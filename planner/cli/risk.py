@@ -9,7 +9,7 @@ import click
 import numpy as np
 from rich.console import Console
 
-from planner.output.terminal import _table
+from planner.output.text import table
 from planner.analysis.risk.run import STATUS, RiskResult, run_risk
 
 console = Console()
@@ -148,7 +148,7 @@ def print_risk(result: RiskResult, summary: dict) -> None:
                           f"point plan's {_money(cur, pt['expected_profit'])}; on independent check samples "
                           f"{_money(cur, best['expected_profit_check'])} against "
                           f"{_money(cur, pt['expected_profit_check'])}.")
-    t = _table("Products")
+    t = table("Products")
     for col in ("product", "planned", "P(running)", "plan sells P5–P95"):
         t.add_column(col, justify="left" if col == "product" else "right")
     for p in summary["products"]:
@@ -159,7 +159,7 @@ def print_risk(result: RiskResult, summary: dict) -> None:
                   "—" if prob is None else f"{100 * prob:.0f} %",
                   f"{sold['p5']:,.0f}–{sold['p95']:,.0f}" if p["planned_running"] else "—")
     console.print(t)
-    r = _table("Shadow prices when re-optimised")
+    r = table("Shadow prices when re-optimised")
     for col in ("resource", "planned", "mean", "P5", "P95", "P(binding)"):
         r.add_column(col, justify="left" if col == "resource" else "right")
     for res in summary["resources"]:

@@ -10,7 +10,7 @@ import click
 from rich.console import Console
 from rich.markup import escape
 
-from planner.output.terminal import _table, money, qty
+from planner.output.text import table, money, qty
 from planner.analysis.capacity.sweep import Sweep, run_sweep
 
 
@@ -95,7 +95,7 @@ def print_sweep(sw: Sweep, console: Console) -> None:
     from planner.output.plan import LABOUR_NOTE
 
     c, unit = sw.currency, f" {sw.unit}" if sw.unit else ""
-    t = _table(f"Sweep of {escape(sw.resource)}")
+    t = table(f"Sweep of {escape(sw.resource)}")
     for col in ("capacity", "profit", "shadow price", "bottleneck", "running"):
         t.add_column(col, justify="right" if col in ("capacity", "profit", "shadow price") else "left")
     prev = None
@@ -109,7 +109,7 @@ def print_sweep(sw: Sweep, console: Console) -> None:
     console.print(t)
     console.print("[dim]running: how many products run (* the slate changed since the row above)[/]")
     console.print()
-    b = _table("Where things change (exact)")
+    b = table("Where things change (exact)")
     for col in ("capacity", "profit", "shadow price below → above", "change"):
         b.add_column(col, justify="left" if col == "change" else "right", overflow="fold")
     for x in sw.breakpoints:

@@ -7,7 +7,7 @@ from rich.markup import escape
 from rich.table import Table
 
 from planner.output.plan import Plan
-from planner.output.terminal import _table, money, qty
+from planner.output.text import table, money, qty
 
 
 def _cap(x: float | None, unit: str) -> str:
@@ -17,7 +17,7 @@ def _cap(x: float | None, unit: str) -> str:
 def ranges_table(p: Plan) -> Table:
     """Shadow price, its rate of change and the capacity range of each binding resource."""
     c = p.currency
-    t = _table("Shadow prices and their ranges")
+    t = table("Shadow prices and their ranges")
     for col in ("resource", "shadow price", "change per unit", "holds from", "to"):
         t.add_column(col, justify="left" if col == "resource" else "right", no_wrap=col != "resource")
     for r in p.resources:
@@ -53,7 +53,7 @@ def range_notes(p: Plan) -> list[str]:
 def options_table(p: Plan) -> Table:
     """Each option valued on its own by re-solving, beside the shadow-price estimate."""
     c = p.currency
-    t = _table("Capacity options, each on its own (re-solved)")
+    t = table("Capacity options, each on its own (re-solved)")
     for col in ("option", "cost", "gain", "net gain", "break-even", "λ×amount"):
         t.add_column(col, justify="left" if col == "option" else "right", overflow="fold",
                      no_wrap=col != "option")

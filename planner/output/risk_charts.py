@@ -12,11 +12,14 @@
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from planner.files import write_atomic
-from planner.analysis.risk.run import RiskResult
+
+if TYPE_CHECKING:  # the charts read a result; they never run the analysis
+    from planner.analysis.risk.run import RiskResult
 
 
 def _pyplot():

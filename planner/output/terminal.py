@@ -2,35 +2,13 @@
 
 from __future__ import annotations
 
-from rich import box
 from rich.console import Console
 from rich.markup import escape
 from rich.measure import Measurement
 from rich.table import Table
 
 from planner.output.plan import LABOUR_NOTE, Plan
-
-
-def money(x: float, currency: str = "$", decimals: int = 0) -> str:
-    """'$12,345' style, with a minus sign before the currency for losses; a currency ending in a letter or
-    digit ('CHF', '$000') is parted from the amount by a space: 'CHF 12,345'."""
-    sign = "-" if x < 0 and round(abs(x), decimals) != 0 else ""
-    sep = " " if currency and currency[-1].isalnum() else ""
-    return f"{sign}{currency}{sep}{abs(x):,.{decimals}f}"
-
-
-def qty(x: float | None, decimals: int = 1) -> str:
-    """Thousands separators; '—' for a missing value."""
-    if x is None:
-        return "—"
-    if abs(x) >= 1000 or decimals == 0:
-        return f"{x:,.0f}"
-    return f"{x:,.{decimals}f}"
-
-
-def price(x: float, currency: str) -> str:
-    """A unit price with cents: '€506.42'."""
-    return money(x, currency, 2)
+from planner.output.text import money, price, qty, table
 
 
 def status_line(p: Plan) -> str:
@@ -42,24 +20,18 @@ def status_line(p: Plan) -> str:
             f"bound {money(p.bound, p.currency)} · gap {p.gap:.2e}")
 
 
-def _table(title: str) -> Table:
-    # No vertical rules: columns are parted by two spaces, so eight money columns fit in 80.
-    return Table(title=title, title_justify="left", show_edge=False, pad_edge=False, header_style="bold",
-                 box=box.SIMPLE_HEAD, padding=(0, 1), collapse_padding=True)
-
-
 def _fit(build, console: Console | None, optional: list[str]) -> Table:
     """The first table from ``build(drop)`` that fits the console, dropping ``optional`` columns in order."""
     drop: set[str] = set()
-    table = build(drop)
+    shown = build(drop)
     if console is None:
-        return table
+        return shown
     for col in optional:
-        if Measurement.get(console, console.options.update_width(10_000), table).maximum <= console.width:
+        if Measurement.get(console, console.options.update_width(10_000), shown).maximum <= console.width:
             break
         drop.add(col)
-        table = build(drop)
-    return table
+        shown = build(drop)
+    return shown
 
 
 def _add(t: Table, col: str, left: bool = False, name: bool = False) -> None:
@@ -85,7 +57,7 @@ def products_table(p: Plan, console: Console | None = None) -> Table:
     c = p.currency
 
     def build(drop: set[str]) -> Table:
-        t = _table("Products")
+        t = table("Products")
         cols = [x for x in ("product", "run", "volume", "price", "revenue", "contrib.", "fixed", "profit")
                 if x not in drop]
         for col in cols:
@@ -108,7 +80,7 @@ def resources_table(p: Plan, console: Console | None = None) -> Table:
     has_range = any(getattr(r, "shadow_price_range", None) for r in p.resources)
 
     def build(drop: set[str]) -> Table:
-        t = _table("Resources")
+        t = table("Resources")
         cols = [x for x in ("resource", "used", "capacity", "util.", "shadow price", "holds for")
                 if x not in drop and (x != "holds for" or has_range)]
         for col in cols:
@@ -132,7 +104,7 @@ def standalone_table(p: Plan, console: Console | None = None) -> Table:
     c = p.currency
 
     def build(drop: set[str]) -> Table:
-        t = _table("Standalone economics (no shared limits)")
+        t = table("Standalone economics (no shared limits)")
         cols = [x for x in ("product", "best vol.", "price", "best profit", "max-rev vol.", "break-even")
                 if x not in drop]
         for col in cols:

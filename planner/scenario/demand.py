@@ -128,7 +128,7 @@ def _expand_one(spec: Any, product: dict, label: str, hist: _Histories, problems
         problems.append(Problem(where, f"must be a mapping (got {spec!r})",
                                 "use {points: ...}, {reference_price, reference_volume, elasticity} or {history: file}"))
         return None
-    from planner.scenario.validate import did_you_mean
+    from planner.scenario.names import did_you_mean
 
     bad = [k for k in spec if k not in KEYS]
     for k in bad:
@@ -221,7 +221,7 @@ def _history(spec: dict, product: dict, label: str, hist: _Histories, problems: 
     if troubled and not data:
         return None
     if name not in data:
-        from planner.scenario.validate import did_you_mean
+        from planner.scenario.names import did_you_mean
 
         problems.append(Problem(f"{where}.history", f"{full.name} has no rows for product {name!r}",
                                 did_you_mean(str(name), list(data)) or "add its rows, or set demand.product"))

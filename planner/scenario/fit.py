@@ -304,7 +304,7 @@ def read_history(path: str | Path) -> tuple[dict[str, dict[str, list]], list[Pro
     problems = []
     for need in ("product", "price", "volume"):
         if need not in header:
-            from planner.scenario.validate import did_you_mean
+            from planner.scenario.names import did_you_mean
 
             hint = did_you_mean(need, header) or "the header row must name product, price, volume (period optional)"
             problems.append(Problem(f"{p.name}, row 1", f"has no column '{need}' (columns: {', '.join(header)})", hint))

@@ -19,7 +19,7 @@ from models.data import MixData
 
 from planner.errors import Problem, ScenarioError
 from planner.scenario.schema import Scenario
-from planner.scenario.validate import did_you_mean
+from planner.scenario.names import did_you_mean
 
 _SOURCE = "scenario (changed after validation? check it with planner.validate_scenario)"
 

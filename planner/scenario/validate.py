@@ -10,7 +10,6 @@ legal but probably not meant) are returned alongside.
 from __future__ import annotations
 
 import datetime
-import difflib
 import math
 from collections import Counter
 from collections.abc import Callable
@@ -20,6 +19,7 @@ from typing import Any
 from pydantic import ValidationError
 
 from planner.scenario.demand import expand_demand
+from planner.scenario.names import did_you_mean
 from planner.errors import Problem, ScenarioError
 from planner.scenario.units import amount_hint
 from planner.scenario.schema import Correlation, Option, Product, Resource, Scenario, Uncertainty
@@ -41,19 +41,6 @@ MAX_OPTIONS = 10_000
 
 #: Longest shown form of a wrong value in a message (characters).
 _GOT_CHARS = 60
-
-
-def _fold(word: str) -> str:
-    return " ".join(str(word).lower().replace("_", " ").replace("-", " ").split())
-
-
-def did_you_mean(word: str, choices: list[str] | set[str]) -> str:
-    """A 'did you mean ...?' hint for a near-miss name (ignoring case, spaces, '_' and '-'), or ''."""
-    folded: dict[str, str] = {}
-    for c in sorted(map(str, choices)):
-        folded.setdefault(_fold(c), c)
-    close = difflib.get_close_matches(_fold(word), list(folded), n=1, cutoff=0.6)
-    return f"did you mean '{folded[close[0]]}'?" if close else ""
 
 
 def _show(x: Any) -> str:

@@ -179,7 +179,7 @@ def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, step
     t_start = time.perf_counter()
     names = [r.name for r in s.resources]
     if resource not in names:
-        from planner.scenario.validate import did_you_mean
+        from planner.scenario.names import did_you_mean
 
         hint = did_you_mean(resource, names) or f"choose one of: {', '.join(names)}"
         raise ScenarioError([Problem(f"--resource {resource}", "is not a resource of the scenario", hint)])

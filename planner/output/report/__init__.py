@@ -3,9 +3,12 @@
 Everything reads one Plan (and its Scenario) through a :class:`ReportContext`::
 
     from planner import load_scenario, plan
-    from planner.report import write_report
+    from planner.analysis.replan import report_context
+    from planner.output.report import write_report
     scenario, _ = load_scenario("scenarios/demo.yaml")
-    paths = write_report(plan(scenario), scenario, "report/", source="scenarios/demo.yaml")
+    p = plan(scenario)
+    ctx = report_context(p, scenario, source="scenarios/demo.yaml")   # the capacity analysis, options valued
+    paths = write_report(p, scenario, "report/", context=ctx)
 """
 
 from __future__ import annotations
@@ -21,13 +24,12 @@ __all__ = ["write_report", "ReportContext", "make_context"]
 
 
 def write_report(plan: Plan, scenario: Scenario, out_dir: str | Path, source: str | Path = "",
-                 sweep: dict[str, Any] | None = None, context: ReportContext | None = None,
-                 **solve: Any) -> dict[str, Path]:
+                 sweep: dict[str, Any] | None = None, context: ReportContext | None = None) -> dict[str, Path]:
     """Write report.html, plan.xlsx, plan.json (sweep.json with a sweep) and every chart as PNG and SVG
     into ``out_dir``.
 
     Returns the written paths by name ('html', 'xlsx', 'json', 'sweep', 'chart:<key>.png', 'chart:<key>.svg').
-    ``solve`` options (rel_gap, time_limit, solver) are used for any re-solve the report needs.
+    Nothing is solved here: without ``context`` the report shows what ``plan`` holds.
     """
     from planner.files import write_atomic, write_text_atomic
     from planner.output.report.charts import all_charts, render
@@ -36,7 +38,7 @@ def write_report(plan: Plan, scenario: Scenario, out_dir: str | Path, source: st
 
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    ctx = context or make_context(plan, scenario, source=source, sweep=sweep, **solve)
+    ctx = context or make_context(plan, scenario, source=source, sweep=sweep)
     charts = all_charts(plan, scenario, ctx.sweep)
     paths: dict[str, Path] = {}
     chart_dir = out / "charts"

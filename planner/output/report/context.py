@@ -2,7 +2,8 @@
 
 Every output (HTML, workbook, charts) reads one :class:`ReportContext`, so
 they cannot disagree.  Options come from ``plan.extras['options']`` (the
-capacity analysis) when present, otherwise from :func:`replan.value_options`.
+capacity analysis) unless given; the analyses themselves run before, in
+:func:`planner.analysis.replan.report_context`.
 """
 
 from __future__ import annotations
@@ -67,34 +68,20 @@ def file_sha256(path: str | Path) -> str:
 
 
 def make_context(plan: Plan, scenario: Scenario, source: str | Path = "", sweep: dict[str, Any] | None = None,
-                 value_options: bool = True, generated: datetime | None = None, **solve: Any) -> ReportContext:
-    """Gather a report's inputs; values the scenario's options by re-solving when the plan has none.
+                 options: list[dict[str, Any]] | None = None, options_source: str = "",
+                 generated: datetime | None = None) -> ReportContext:
+    """Gather a report's inputs; nothing is solved here.
 
-    Where the capacity analysis (``planner.capacity``) is installed and the plan has not been through it,
-    it is run first (shadow-price ranges and exact option values); otherwise options are valued by
-    :func:`replan.value_options`.
+    ``options``: the options' values (default: ``plan.extras['options']``, from the capacity
+    analysis); ``options_source`` says where they came from.  The analyses that fill them in
+    are run before, by :func:`planner.analysis.replan.report_context`.
     """
-    if value_options and "options" not in plan.extras:
-        _capacity_analysis(plan, scenario)
-    options = plan.extras.get("options")
-    origin = "capacity analysis" if options else ""
-    if not options and scenario.options and value_options:
-        from planner.analysis.replan import value_options as valuer
-
-        options = valuer(scenario, plan, **solve)
-        origin = "re-solved for this report"
+    if options is None:
+        options = plan.extras.get("options")
+        options_source = "capacity analysis" if options else ""
     ctx = ReportContext(plan=plan, scenario=scenario, source=str(source), sha256=file_sha256(source) if source else "",
-                        options=list(options or []), options_source=origin, sweep=sweep or plan.extras.get("sweep"))
+                        options=list(options or []), options_source=options_source,
+                        sweep=sweep or plan.extras.get("sweep"))
     if generated is not None:
         ctx.generated = generated
     return ctx
-
-
-def _capacity_analysis(plan: Plan, scenario: Scenario) -> bool:
-    """Run the capacity analysis on ``plan`` if that package is present; False where it is not."""
-    try:
-        from planner.analysis.capacity.analysis import add_capacity_analysis, auto_budget
-    except ImportError:
-        return False
-    add_capacity_analysis(plan, scenario, budget=auto_budget(plan))
-    return True

@@ -15,7 +15,7 @@ from typing import Any
 from planner.output.plan import LABOUR_NOTE
 from planner.output.report.charts import Chart
 from planner.output.report.context import ReportContext
-from planner.output.report.fmt import money, num, pct
+from planner.output.report.fmt import changes_text, money, num, option_share, option_slate, pct
 from planner.output.report.style import CSS
 
 
@@ -91,7 +91,7 @@ def _summary(ctx: ReportContext) -> str:
                       f"{escape(money(r.shadow_price, c, 2))} of profit, for a small change. Larger additions "
                       "(a shift) are valued by re-solving, below.")
     if best is not None:
-        changes = _changes_text(_slate(best))
+        changes = changes_text(option_slate(best))
         points.append(f"Best capacity option: <b>{escape(best['name'])}</b>, gain "
                       f"{escape(money(best.get('gain', 0.0), c))} for a cost of {escape(money(best.get('cost', 0.0), c))}"
                       f" (net {escape(money(best['net_gain'], c))})" + (f"; {escape(changes)}" if changes else "") + ".")
@@ -99,30 +99,6 @@ def _summary(ctx: ReportContext) -> str:
         points.append(f"Warning: {escape(w)}")
     items = "".join(f"<li>{x}</li>" for x in points)
     return f'<section id="summary"><div class="cards">{"".join(cards)}</div><ul class="points">{items}</ul></section>'
-
-
-def _slate(option: dict[str, Any]) -> Any:
-    """An option's slate change: the text where one is given ('slate_change'), else 'slate_changes'."""
-    return option.get("slate_change") or option.get("slate_changes")
-
-
-def _share(option: dict[str, Any]) -> float | None:
-    """Share (0..1) of a part-usable option's amount used at its best, None for all-or-nothing ones."""
-    if option.get("kind") == "part" and option.get("used") is not None:
-        return float(option["used"])
-    return None
-
-
-def _changes_text(v: Any) -> str:
-    if v is None or v is False or v == "" or v == []:
-        return ""
-    if v is True:
-        return "the slate of running products changes"
-    if isinstance(v, (list, tuple)):
-        return "; ".join(str(x) for x in v)
-    if isinstance(v, dict):
-        return "; ".join(f"{k}: {', '.join(map(str, x)) if isinstance(x, (list, tuple)) else x}" for k, x in v.items())
-    return str(v)
 
 
 def _products(ctx: ReportContext) -> str:
@@ -198,7 +174,7 @@ def _options(ctx: ReportContext) -> str:
         adds = o.get("adds") or {}
         units = {r.name: r.unit for r in ctx.scenario.resources}
         adds_text = ", ".join(f"{num(a)} {units.get(k, '')} {k}".replace("  ", " ") for k, a in adds.items())
-        share = _share(o)
+        share = option_share(o)
         if share is not None:
             adds_text += f" (best use: {pct(share)} of it)"
         net = o.get("net_gain")
@@ -206,7 +182,7 @@ def _options(ctx: ReportContext) -> str:
             escape(o.get("name", "")), escape(adds_text), escape(money(o.get("cost", 0.0), c)),
             escape(money(o["profit_with"], c)) if o.get("profit_with") is not None else "—",
             escape(money(o.get("gain", 0.0), c)), f"<b>{escape(money(net, c))}</b>" if net is not None else "—",
-            escape(_changes_text(_slate(o)) or "none")]))
+            escape(changes_text(option_slate(o)) or "none")]))
     src = ("Valued by the capacity analysis." if ctx.options_source == "capacity analysis" else
            "Each option valued on its own by re-solving the plan with it; options usable in part were tried at "
            "25 %, 50 %, 75 % and 100 % of their amount.")

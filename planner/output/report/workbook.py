@@ -18,7 +18,7 @@ from openpyxl.utils import get_column_letter
 
 from planner.output.plan import LABOUR_NOTE
 from planner.output.report.context import ReportContext
-from planner.output.report.html import _changes_text, _share, _slate
+from planner.output.report.fmt import changes_text, option_share, option_slate
 
 HEAD_FILL = PatternFill("solid", fgColor="F1EBDF")
 QTY = "#,##0.0"
@@ -114,9 +114,9 @@ def build_workbook(ctx: ReportContext) -> Workbook:
     orows = []
     for o in ctx.options:
         adds = "; ".join(f"{k}: {a:g}" for k, a in (o.get("adds") or {}).items())
-        share = _share(o)
+        share = option_share(o)
         orows.append([o.get("name"), adds, 1.0 if share is None else share, o.get("cost"), o.get("profit_with"),
-                      o.get("gain"), o.get("net_gain"), _changes_text(_slate(o)) or "none", ctx.options_source])
+                      o.get("gain"), o.get("net_gain"), changes_text(option_slate(o)) or "none", ctx.options_source])
     _sheet(wb, "Options", opt_head, orows, {"share used": PCT, "cost": m0, "profit with it": m0, "gain": m0,
                                             "net gain": m0})
 

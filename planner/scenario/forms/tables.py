@@ -211,7 +211,7 @@ class _Reader:
                 self.problems.append(Problem(self.at(t.name, 1, h), "heading appears twice", "keep one of the columns"))
         for c in required:
             if c not in [h.removesuffix(":json") for h in header]:
-                from planner.scenario.validate import did_you_mean
+                from planner.scenario.names import did_you_mean
 
                 hint = did_you_mean(c, header) or f"row 1 must name the columns: {', '.join(required)}"
                 self.problems.append(Problem(self.at(t.name, 1), f"has no column '{c}'", hint))
@@ -283,7 +283,7 @@ def _letter(i: int) -> str:
 def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_name: str,
                 base_dir: Path | None = None) -> ReadResult:
     """Build the scenario dict from tables, remembering where every value came from."""
-    from planner.scenario.validate import did_you_mean
+    from planner.scenario.names import did_you_mean
 
     # Known tables match whatever the case of their names ("Products" is products).
     tables = {(k.lower() if k.lower() in ORDER else k): t for k, t in tables.items()}
