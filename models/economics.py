@@ -96,3 +96,27 @@ def _one(a: float, b: float, v: float, F: float, cap: float) -> Standalone:
         break_even=tuple(None if x is None else float(x) for x in be),
         profitable_within_cap=bool(profitable),
     )
+
+
+def capacity_value(shadow_prices: np.ndarray, capacity: np.ndarray) -> np.ndarray:
+    """The value of one per cent more of each resource, 0.01 · λ_r · H_r (currency per period).
+
+    Unlike the shadow price itself (currency per hour, per kg, per tonne), this does not
+    depend on the unit a resource is counted in, so resources can be compared by it.
+    """
+    return 0.01 * np.asarray(shadow_prices, dtype=float) * np.maximum(np.asarray(capacity, dtype=float), 0.0)
+
+
+def bottleneck(shadow_prices: np.ndarray, capacity: np.ndarray, tol: float = 1e-12) -> int | None:
+    """Index of the bottleneck: the binding resource whose extra one per cent is worth most; None if none binds.
+
+    A resource binds here when its shadow price is positive; ties (e.g. capacity 0) go to the
+    higher shadow price.  The choice is the same whatever unit each resource is counted in.
+    """
+    lam = np.asarray(shadow_prices, dtype=float)
+    if lam.size == 0 or np.max(lam, initial=0.0) <= tol:
+        return None
+    value = capacity_value(lam, capacity)
+    order = np.lexsort((-lam, -value))
+    k = int(order[0])
+    return k if lam[k] > tol else None

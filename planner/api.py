@@ -1,33 +1,52 @@
-"""The Python API: scenario in, Plan out (the CLI is a thin layer over this)."""
+"""The Python API: scenario in, Plan out (the CLI is a thin layer over this).
+
+``plan`` reads and validates the scenario (:mod:`planner.scenario`), turns it
+into the model's arrays, checks that the commitments fit (naming the limits
+if not), solves it with the engine (:class:`planner.engine.Engine`) and
+assembles the :class:`planner.output.plan.Plan` that every output reads.
+"""
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 import numpy as np
 
 from models.data import MixData
-
-from planner.scenario.demand import extrapolation_warnings
-from models.economics import standalone
-from planner.errors import PlannerError, SolverError
-from planner.scenario.guard import check_extra_capacity, check_names, check_numbers, check_volumes
+from models.economics import capacity_value, standalone
+from planner.engine import DEFAULT_GAP, Engine, Solution, relative_gap
 from planner.engine.infeasible import explain as explain_infeasible
-from planner.scenario.loading import load_scenario
+from planner.engine.settings import LIMIT_TOL, MAX_GAP
+from planner.engine.verify import check_plan
+from planner.errors import PlannerError, SolverError
 from planner.output.plan import Plan, ProductPlan, ResourcePlan, solver_versions
 from planner.scenario.arrays import mix_data
-from planner.engine.scaling import solve_scaled
+from planner.scenario.demand import extrapolation_warnings
+from planner.scenario.guard import check_extra_capacity, check_names, check_numbers
+from planner.scenario.loading import load_scenario
 from planner.scenario.schema import Scenario
-from planner.engine.solve import DEFAULT_GAP, MixSolution, relative_gap
 
-#: Relative tolerance for calling a limit binding and for checking a plan's limits.
-LIMIT_TOL = 1e-7
+
+def engine_for(s: Scenario, d: MixData | None = None, threads: int = 1, seed: int = 0) -> Engine:
+    """The engine of a validated scenario (its arrays ``d`` if already made), with its units for messages."""
+    return Engine(mix_data(s) if d is None else d, threads, seed, units={r.name: r.unit for r in s.resources})
+
+
+def check_gap(rel_gap: float) -> None:
+    """Raise PlannerError (bad input) unless 0 ≤ rel_gap ≤ MAX_GAP."""
+    if not isinstance(rel_gap, (int, float)) or not math.isfinite(rel_gap) or not 0 <= rel_gap <= MAX_GAP:
+        raise PlannerError(f"the gap must be a number from 0 to {MAX_GAP} (got {rel_gap!r}): it is the largest "
+                           "relative distance from the proven bound a plan may have to be called optimal")
 
 
 def plan(scenario: Scenario | str | Path, rel_gap: float = DEFAULT_GAP, time_limit: float | None = None,
          solver: str | None = None, threads: int = 1, seed: int = 0,
          extra_capacity: dict[str, float] | None = None) -> Plan:
     """Plan the mix of a scenario (object or file path) to a certified relative gap."""
+    check_gap(rel_gap)
+    if time_limit is not None and not (math.isfinite(time_limit) and time_limit > 0):
+        raise PlannerError(f"the time limit must be a positive number of seconds (got {time_limit!r})")
     warnings: list[str] = []
     if not isinstance(scenario, Scenario):
         scenario, warnings = load_scenario(scenario)
@@ -37,28 +56,29 @@ def plan(scenario: Scenario | str | Path, rel_gap: float = DEFAULT_GAP, time_lim
     check_numbers(scenario, d)
     explain_infeasible(scenario, d)  # commitments that cannot fit: named, in the scenario's units
     try:
-        sol = solve_scaled(d, rel_gap=rel_gap, time_limit=time_limit, solver=solver, threads=threads, seed=seed)
+        sol = engine_for(scenario, d, threads, seed).solve(rel_gap=rel_gap, time_limit=time_limit, solver=solver)
     except PlannerError:
         raise
     except Exception as e:  # a solver library's own failure: a clear message, never a bare traceback
         raise SolverError(f"the solver failed ({type(e).__name__}: {e}); try --solver scip, or rerun with "
                           "--debug and report it") from e
+    if sol.status not in ("optimal", "time_limit"):
+        raise SolverError(f"the plan could not be certified to the gap asked for ({'; '.join(sol.messages)}); "
+                          f"the best plan found makes {sol.objective:,.2f} against a bound of {sol.bound:,.2f} "
+                          f"(gap {sol.gap:.2e}): try a larger --gap, a --time-limit, or --solver scip")
     return build_plan(scenario, d, sol, warnings, threads, seed)
 
 
-def build_plan(s: Scenario, d: MixData, sol: MixSolution, warnings: list[str] | None = None,
+def build_plan(s: Scenario, d: MixData, sol: Solution, warnings: list[str] | None = None,
                threads: int = 1, seed: int = 0) -> Plan:
-    """Assemble the Plan from the solution; checks every limit (a violated one is an error)."""
-    vol = clean_volumes(sol.volume, d)
-    check_volumes(d, vol, sol.running, LIMIT_TOL)
+    """Assemble the Plan from a solution; a solution that breaks a limit is an error (SolverError), not a plan."""
+    vol = np.asarray(sol.volume, dtype=float)
+    check_plan(d, vol, sol.running, sol.option_scale)
     econ = standalone(d.a, d.b, d.v, d.F, d.cap)
     products = []
     for k, p in enumerate(s.products):
         D = float(vol[k])
-        if d.can_stop[k]:
-            running = bool(sol.running[k])
-        else:
-            running = bool(d.must_run[k]) or D > 0
+        running = bool(sol.running[k]) if d.can_stop[k] else bool(d.must_run[k]) or D > 0
         price = float(d.a[k] - d.b[k] * D)
         revenue = price * D
         var_cost = float(d.v[k]) * D
@@ -68,21 +88,18 @@ def build_plan(s: Scenario, d: MixData, sol: MixSolution, warnings: list[str] | 
             contribution=revenue - var_cost, fixed_cost=fixed, profit=revenue - var_cost - fixed,
             unit=p.unit, standalone=econ[k], must_run=bool(d.must_run[k])))
     used = d.used(vol)
+    value = capacity_value(sol.duals, d.capacity)
     resources = []
     for r, res in enumerate(s.resources):
         cap = float(d.capacity[r])
         tol = LIMIT_TOL * max(abs(cap), 1.0)
-        if used[r] > cap + tol:
-            from planner.errors import SolverError
-
-            raise SolverError(f"the solved plan uses {used[r]:.9g} of {res.name} but it has {cap:.9g}: "
-                              "the solver's answer breaks a limit, so no plan is reported (try --solver scip)")
         shadow = float(sol.duals[r])
         binding = bool(used[r] >= cap - max(1e-6 * max(abs(cap), 1.0), tol)) and cap >= 0
+        shown = shadow if binding or shadow > 1e-9 else 0.0
         resources.append(ResourcePlan(name=res.name, capacity=cap, used=float(used[r]),
                                       utilisation=float(used[r] / cap) if cap > 0 else 0.0,
-                                      shadow_price=shadow if binding or shadow > 1e-9 else 0.0,
-                                      binding=binding, unit=res.unit))
+                                      shadow_price=shown, binding=binding, unit=res.unit,
+                                      value_of_one_percent=float(value[r]) if shown else 0.0))
     product_profit = sum(p.profit for p in products)
     profit = product_profit - s.plant_fixed_cost
     bound = max(float(sol.bound), product_profit) - s.plant_fixed_cost
@@ -98,7 +115,6 @@ def build_plan(s: Scenario, d: MixData, sol: MixSolution, warnings: list[str] | 
 def write_model_file(scenario: Scenario | str | Path, path: str | Path) -> Path:
     """Write the scenario's mixed-integer QP (the model of record) as an LP file with readable names."""
     from models.mix import build_mix_model
-
     from planner.files import write_atomic
 
     if not isinstance(scenario, Scenario):
@@ -106,10 +122,3 @@ def write_model_file(scenario: Scenario | str | Path, path: str | Path) -> Path:
     model = build_mix_model(mix_data(scenario))
     return write_atomic(path, lambda tmp: model.write(str(tmp), format="lp",
                                                       io_options={"symbolic_solver_labels": True}))
-
-
-def clean_volumes(volume: np.ndarray, d: MixData) -> np.ndarray:
-    """Volumes with solver noise below 1e-9 of each bound set to 0 (units)."""
-    v = np.asarray(volume, dtype=float).copy()
-    v[np.abs(v) <= 1e-9 * np.maximum(d.upper, 1.0)] = 0.0
-    return v

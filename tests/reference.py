@@ -92,7 +92,7 @@ def enumerate_slates(s: Scenario) -> float:
     """Best profit (before plant-wide fixed cost) over every slate, each a continuous QP."""
     from models.data import MixData  # noqa: F401  (documentation of what is enumerated)
     from planner.scenario.arrays import mix_data
-    from planner.engine.qp import solve_slate_qp
+    from planner.engine import Engine
 
     d = mix_data(s)
     free = np.flatnonzero(d.can_stop)
@@ -103,7 +103,7 @@ def enumerate_slates(s: Scenario) -> float:
         slate[free] = bits
         if np.any(slate & (d.run_floor > d.upper + 1e-12)):
             continue  # a product that cannot reach its minimum run
-        qp = solve_slate_qp(d, slate)
+        qp = Engine(d).slate(slate)
         if qp.status == "optimal":
             best = max(best, qp.objective)
     return best

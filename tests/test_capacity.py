@@ -10,11 +10,16 @@ from planner import plan, validate_scenario
 from planner.analysis.capacity.analysis import add_capacity_analysis
 from planner.analysis.capacity.ranging import resource_ranges
 from planner.scenario.arrays import mix_data
-from planner.engine.solve import solve_mix
+from planner.engine import Engine
 from planner.scenario.synth import synthetic_scenario
 
 from .conftest import CASES, needs_scip
 
+
+
+def solve_mix(d, rel_gap):
+    """The engine's plan of the arrays ``d`` (profit without the plant-wide fixed cost)."""
+    return Engine(d).solve(rel_gap=rel_gap)
 
 def raw(name: str) -> dict:
     return yaml.safe_load((CASES / name).read_text())
@@ -251,15 +256,15 @@ def test_slack_limit_cut_to_its_use_keeps_the_plan(seed):
             assert solve_mix(d.with_capacity(cap), rel_gap=1e-9).objective == pytest.approx(base.objective, rel=1e-7)
 
 
-def test_warm_fallback_milp_agrees_with_the_fast_route(monkeypatch):
-    """The persistent Pyomo cut MILP (used where the fast route declines) gives the same ranges."""
-    import planner.analysis.capacity.warm as warm
+def test_ranges_agree_whichever_exact_route_re_solves(monkeypatch):
+    """Range ends re-checked by slate enumeration and by the Lagrangian + cut MILP route give the same ranges."""
+    import planner.engine.search as search
 
     s, _ = validate_scenario(synthetic_scenario(10, 3, seed=4, fixed_costs="near"))
     d = mix_data(s)
     base = solve_mix(d, rel_gap=1e-9)
     fast = resource_ranges(d, base.running)
-    monkeypatch.setattr(warm, "applies", lambda _d: False)
+    monkeypatch.setattr(search, "ENUMERATE_UP_TO", 0)  # every re-solve through the cut MILP
     slow = resource_ranges(d, base.running)
     for a, b in zip(fast, slow):
         for x, y in ((a.low, b.low), (a.high, b.high)):

@@ -22,7 +22,7 @@ from planner.cli.main import main
 from planner.scenario.arrays import mix_data
 from planner.analysis.risk import run_risk
 from planner.analysis.risk.evaluate import sample_arrays, sample_data
-from planner.analysis.risk.fastmix import SampleSolver
+from planner.engine import Engine
 from planner.analysis.risk.sampling import draw_samples
 
 from .conftest import needs_scip
@@ -179,19 +179,26 @@ def test_fitted_distribution_recovers_the_covariance():
 
 
 @needs_scip
-def test_sample_re_optimisation_matches_scip(demo_path):
+def test_sample_re_optimisation_matches_scip(demo_path, monkeypatch):
+    import planner.engine.search as search
+
     from .reference import scip_plan
 
     demo, _ = load_scenario(demo_path)
     base = mix_data(demo)
     draws = draw_samples(demo, 12, seed=4)
     arrays = sample_arrays(base, draws)
-    bounding, outer = SampleSolver(base), SampleSolver(base, enumerate_up_to=0)  # both exact routes
+    engine = Engine(base)
     for i in range(12):
         d = sample_data(base, arrays["a"][i], arrays["b"][i], arrays["v"][i], arrays["H"][i])
-        sol, sol2 = bounding.solve(d), outer.solve(d)
-        assert sol is not None and sol.status == "optimal"
-        assert sol2 is not None and sol2.objective == pytest.approx(sol.objective, rel=1e-4)
+        change = {"a": d.a, "b": d.b, "v": d.v, "capacity": d.capacity}
+        sol = engine.solve(**change)  # slate bounding (few on/off choices)
+        with monkeypatch.context() as m:
+            m.setattr(search, "ENUMERATE_UP_TO", 0)
+            sol2 = engine.solve(**change)  # the Lagrangian + cut MILP route
+        assert sol.status == "optimal" and sol.strategy == "enumeration"
+        assert sol2.status == "optimal" and sol2.strategy != "enumeration"
+        assert sol2.objective == pytest.approx(sol.objective, rel=1e-4)
         products = [p.model_copy(update={"price_intercept": float(d.a[k]), "price_slope": float(d.b[k]),
                                          "unit_cost": float(d.v[k])}) for k, p in enumerate(demo.products)]
         resources = [r.model_copy(update={"capacity": float(d.capacity[k])}) for k, r in enumerate(demo.resources)]
@@ -199,7 +206,10 @@ def test_sample_re_optimisation_matches_scip(demo_path):
         assert sol.objective == pytest.approx(ref, rel=1e-4), i
         assert sol.bound >= ref - 1e-6 * abs(ref)
         assert sol2.bound >= ref - 1e-6 * abs(ref)
-        assert bounding.lagrangian(d, sol.duals)[0] >= ref - 1e-6 * abs(ref)  # weak duality
+        from planner.engine.dual import evaluate
+
+        L = evaluate(engine.problem(d), engine.scales.prices_in(sol.duals)).value * engine.scales.money
+        assert L >= ref - 1e-6 * abs(ref)  # weak duality
 
 
 def test_cli_risk_prints_the_chance_of_a_loss_and_writes_json(tmp_path):
@@ -252,7 +262,7 @@ def test_robust_choice_scores_the_point_plan_like_the_evaluation_and_charts_are_
 
 
 @needs_scip
-def test_sample_where_the_active_set_qp_fails_matches_scip(demo_path):
+def test_sample_where_the_active_set_qp_fails_matches_scip(demo_path, monkeypatch):
     # A demo sample (numbers rounded from a draw) on which HiGHS 1.15's active-set QP answers
     # "unbounded" for a slate when its stopped products are kept as columns fixed at 0; the
     # per-sample route builds the slate's QP without them.  Reference: SCIP on the raw MIQP.
@@ -266,9 +276,13 @@ def test_sample_where_the_active_set_qp_fails_matches_scip(demo_path):
     resources = [r.model_copy(update={"capacity": H[k]}) for k, r in enumerate(demo.resources)]
     s = demo.model_copy(update={"products": products, "resources": resources})
     ref, _ = scip_plan(s)
+    import planner.engine.search as search
+
+    d = mix_data(s)
     for limit in (12, 0):  # slate bounding, outer approximation
-        sol = SampleSolver(mix_data(demo), enumerate_up_to=limit).solve(mix_data(s))
-        assert sol is not None
+        monkeypatch.setattr(search, "ENUMERATE_UP_TO", limit)
+        sol = Engine(mix_data(demo)).solve(a=d.a, b=d.b, v=d.v, capacity=d.capacity)
+        assert sol.status == "optimal"
         assert sol.objective == pytest.approx(ref, rel=1e-6)
         assert [p.name for p, on in zip(demo.products, sol.running) if on] == \
             ["oak bookcase", "walnut desk", "birch nightstand", "ash bench"]

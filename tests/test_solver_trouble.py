@@ -14,8 +14,8 @@ from planner import SolverError, plan, validate_scenario
 from planner.api import build_plan
 from planner.cli.main import main
 from planner.scenario.arrays import mix_data
-from planner.engine.scaling import scale, solve_scaled
-from planner.engine.solve import MixSolution, solve_mix
+from planner.engine import Engine, Solution
+from planner.engine.scaling import Scales
 from planner.scenario.synth import synthetic_scenario
 
 from .conftest import needs_scip, tiny
@@ -52,30 +52,23 @@ def test_time_limit_through_the_cli(hard, tmp_path):
 
 
 def test_missing_highs_names_what_to_install(monkeypatch, tmp_path):
-    from pyomo.contrib.appsi.solvers import Highs
+    import sys
 
-    import planner.engine.fastroute
-
-    monkeypatch.setattr(planner.engine.fastroute, "applies", lambda d: False)  # the general (Pyomo) route
-    monkeypatch.setattr(Highs, "available", lambda self: False)
+    monkeypatch.setitem(sys.modules, "highspy", None)  # import highspy now fails
     f = tmp_path / "s.yaml"
-    f.write_text(yaml.safe_dump(tiny(fixed_cost=100.0)))  # an on/off choice: the cut MILP is used
+    f.write_text(yaml.safe_dump(tiny(fixed_cost=100.0)))  # an on/off choice: the engine needs HiGHS
     res = CliRunner().invoke(main, ["plan", str(f)])
     assert res.exit_code == 4
-    assert res.stderr == "error: HiGHS is not available to Pyomo: pip install 'highspy==1.15.1'\n"
+    assert res.stderr == "error: HiGHS is not available: pip install 'highspy==1.15.1'\n"
 
 
-def test_failing_qp_names_what_to_install(monkeypatch):
-    import pyomo.contrib.solver.common.factory as factory
+def test_failing_solver_library_names_what_to_install(monkeypatch):
+    import highspy
 
-    import planner.engine.fastroute
+    def broken(self):
+        raise RuntimeError("library not loaded")
 
-    class Broken:
-        def solve(self, *a, **k):
-            raise RuntimeError("library not loaded")
-
-    monkeypatch.setattr(planner.engine.fastroute, "applies", lambda d: False)  # the general (Pyomo) route
-    monkeypatch.setattr(factory, "SolverFactory", lambda name: Broken())
+    monkeypatch.setattr(highspy.Highs, "run", broken)
     with pytest.raises(SolverError, match=r"library not loaded \(reinstall highspy: pip install 'highspy==1.15.1'\)"):
         plan(validate_scenario(tiny())[0])
 
@@ -91,7 +84,7 @@ def test_unknown_solver_is_exit_4_with_advice(tmp_path):
 def test_plan_breaking_a_limit_is_an_error_not_a_plan():
     s, _ = validate_scenario(tiny())
     d = mix_data(s)
-    wrong = MixSolution("optimal", np.array([1000.0 * (1 + 1e-6)]), np.array([True]), 0.0, 0.0,
+    wrong = Solution("optimal", np.array([1000.0 * (1 + 1e-6)]), np.array([True]), 0.0, 0.0,
                         np.zeros(1), "test")  # press: 1,000 h; this uses 1,000.001 h
     with pytest.raises(SolverError, match="the solved plan uses 1000.001 of press but it has 1000"):
         build_plan(s, d, wrong)
@@ -128,7 +121,8 @@ def wide_scenario() -> dict:
 def test_scaling_is_exact_in_powers_of_two():
     s, _ = validate_scenario(wide_scenario())
     d = mix_data(s)
-    sd, sc = scale(d)
+    sc = Scales.of(d)
+    sd = sc.apply(d)
     assert np.all(np.log2(sc.col) == np.round(np.log2(sc.col)))
     assert np.array_equal(sd.use_amt * sc.row[d.use_res] / sc.col[d.use_prod], d.use_amt)
     assert np.array_equal(sd.b / sc.col**2, d.b) and np.array_equal(sd.capacity * sc.row, d.capacity)
@@ -147,17 +141,17 @@ def test_wide_coefficients_match_scip_and_keep_every_limit():
     assert p.profit == pytest.approx(ref, rel=1e-7)
     for r in p.resources:
         assert r.used <= r.capacity * (1 + 1e-7)
-    unscaled = solve_mix(mix_data(s), rel_gap=1e-9)
-    scaled = solve_scaled(mix_data(s), rel_gap=1e-9)
+    unscaled = Engine(mix_data(s), scaled=False).solve(rel_gap=1e-9)
+    scaled = Engine(mix_data(s)).solve(rel_gap=1e-9)
     assert scaled.objective == pytest.approx(unscaled.objective, rel=1e-9)
 
 
 def test_plan_breaking_a_cap_or_commitment_is_an_error():
     s, _ = validate_scenario(tiny(max_volume=50.0, min_volume=10.0))
     d = mix_data(s)
-    over = MixSolution("optimal", np.array([50.001]), np.array([True]), 0.0, 0.0, np.zeros(1), "test")
+    over = Solution("optimal", np.array([50.001]), np.array([True]), 0.0, 0.0, np.zeros(1), "test")
     with pytest.raises(SolverError, match="widget at 50.001 is above its max_volume 50"):
         build_plan(s, d, over)
-    under = MixSolution("optimal", np.array([9.99]), np.array([True]), 0.0, 0.0, np.zeros(1), "test")
+    under = Solution("optimal", np.array([9.99]), np.array([True]), 0.0, 0.0, np.zeros(1), "test")
     with pytest.raises(SolverError, match="widget at 9.99 is below its floor 10"):
         build_plan(s, d, under)

@@ -13,11 +13,16 @@ from planner import load_scenario, validate_scenario
 from planner.analysis.capacity.sweep import run_sweep
 from planner.cli.main import main
 from planner.scenario.arrays import mix_data
-from planner.engine.solve import solve_mix
+from planner.engine import Engine
 from planner.scenario.synth import synthetic_scenario
 
 from .conftest import CASES
 
+
+
+def solve_mix(d, rel_gap):
+    """The engine's plan of the arrays ``d`` (profit without the plant-wide fixed cost)."""
+    return Engine(d).solve(rel_gap=rel_gap)
 
 def grid_slates(s, resource: str, caps: np.ndarray):
     """Brute force: the planner's main route (not the sweep's machinery) at every grid capacity."""
@@ -82,18 +87,20 @@ def test_synthetic_slate_changes_against_grid():
 
 def test_wyndor_price_dependent_sweep_limits_by_hand():
     """Wyndor §13.2 variant, plant 3 from 10 to 30 (hand working in test_capacity): plant 1 starts to
-    bind at 35 − 18·17/26; then x1 = 4, x2 = (b3 − 12)/2, λ3 = 91 − 13·x2 and λ1 = 54 − 3·λ3, so plant 1
-    becomes the bottleneck where λ1 = λ3 = 13.5 (b3 = 12 + 2·(91 − 13.5)/13); at 24 plant 2 binds too
-    (x = (4, 6)) and the profit stays at 126·4 − 9·16 + 182·6 − 13·36 = 984 beyond."""
+    bind at 35 − 18·17/26; then x1 = 4, x2 = (b3 − 12)/2, λ3 = 91 − 13·x2 and λ1 = 54 − 3·λ3.  The
+    bottleneck is the binding plant whose extra 1 % is worth most (λ·capacity/100): on [23.2, 24]
+    plant 3's λ3·b3 ≥ 13·23.2 stays above plant 1's 4·λ1 = 4·(54 − 3·λ3) ≤ 60, so it changes only at
+    24, where plant 2 binds too (x = (4, 6)), plant 3 goes slack and λ1 = 126 − 18·4 = 54,
+    λ2 = (182 − 26·6)/2 = 13: plant 1 (4·54 = 216) ahead of plant 2 (12·13 = 156).  The profit
+    stays at 126·4 − 9·16 + 182·6 − 13·36 = 984 beyond."""
     s, _ = load_scenario(CASES / "wyndor_qp.yaml")
     sw = run_sweep(s, "plant_3", 10.0, 30.0, 20)
     bps = [(b.capacity, b.change) for b in sw.breakpoints]
-    assert len(bps) == 3
+    assert len(bps) == 2
     assert bps[0][0] == pytest.approx(35 - 18 * 17 / 26, rel=1e-12) and "plant_1 starts to bind" in bps[0][1]
-    assert bps[1][0] == pytest.approx(12 + 2 * (91 - 13.5) / 13, rel=1e-12)
+    assert bps[1][0] == pytest.approx(24.0, rel=1e-12) and "plant_2 starts to bind" in bps[1][1]
     assert "bottleneck: plant_3 → plant_1" in bps[1][1]
-    assert bps[2][0] == pytest.approx(24.0, rel=1e-12) and "plant_2 starts to bind" in bps[2][1]
-    assert sw.breakpoints[2].shadow_price_below == pytest.approx(13.0) and sw.breakpoints[2].shadow_price_above == 0
+    assert sw.breakpoints[1].shadow_price_below == pytest.approx(13.0) and sw.breakpoints[1].shadow_price_above == 0
     at = {p.capacity: p for p in sw.points}
     assert at[18.0].profit == pytest.approx(857.0, abs=1e-9) and at[18.0].shadow_price == pytest.approx(26.0)
     assert at[19.0].profit == pytest.approx(882.235294117647, abs=1e-9)

@@ -1,167 +1,116 @@
-r"""The tangent-cut MILP of :mod:`models.cuts` straight into one persistent highspy instance.
+r"""The outer-approximation MILP on one persistent highspy instance, gathered from the families of blocks.
 
-Same formulation as :func:`models.cuts.build_cut_model` (the Pyomo model of
-record; ``tests/test_fast.py`` checks both give the same bound on seeded
-cases): columns D (volumes), t (contribution estimates), y (running, for
-products with a real on/off choice);
+Each family adds its columns and rows (:meth:`planner.engine.blocks.Blocks.add_to_milp`):
+for products the volumes D, contribution estimates t and on/off columns y
+with the links max(L, M)·y ≤ D ≤ U·y and the first tangent cuts; for
+options their scale columns.  Together with the shared capacity rows this is
 
 .. math::
 
-    \max \sum_i t_i - \sum_i F_i y_i \quad\text{s.t.}\quad
-    H D \le \mathrm{cap},\;
-    \max(L_i, M_i)\, y_i \le D_i \le U_i\, y_i,\;
+    \max \sum_i t_i - \sum_i F_i y_i - \sum_o c_o s_o \quad\text{s.t.}\quad
+    H D - A s \le \mathrm{cap},\; \text{the families' own rows},\;
     t_i \le (c_i - 2 b_i \bar D) D_i + b_i \bar D^2 y_i \text{ at each cut point } \bar D,
 
-with y_i ≡ 1 (a constant) for products that must run or have no on/off
-choice.  Cuts are added as rows to the same instance (no rebuild), and the
-best slate known so far is passed in as a MIP start before every solve.
+the model of record's outer approximation (:func:`models.cuts.build_cut_model`;
+``tests/test_engine_model.py`` checks the two are the same rows).  Every cut
+over-estimates the concave contribution, so the MILP's dual bound is a valid
+upper bound (Duran & Grossmann 1986, Math. Programming 36).  Cuts are added
+as rows to the same instance (no rebuild); the best plan known is passed in
+as a MIP start before every solve.
 """
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
-from models.data import MixData, peak_contribution
+from planner.engine import highs
+from planner.engine.blocks import MilpBuilder
+from planner.engine.problem import Problem
+from planner.engine.settings import LEAN_MIP
 
-_INF = 1e30
 
-#: HiGHS MIP options for these small, cut-heavy MILPs.  Measured on a 50-product case with
-#: fixed costs near contributions (2 cores): one MILP took 2.4–3.2 s with the defaults, almost all of
-#: it in root heuristics and restarts over 5 nodes, and 0.5 s with these (21 nodes, same bound).
-LEAN_MIP = {"presolve": "off", "mip_allow_restart": False, "mip_heuristic_run_root_reduced_cost": False,
-            "mip_heuristic_run_feasibility_jump": False, "mip_heuristic_run_rins": False,
-            "mip_heuristic_run_rens": False}
+@dataclass
+class MilpResult:
+    """One run of the cut MILP (amounts in the problem's units)."""
+
+    outcome: highs.Outcome
+    bound: float  # upper bound on the profit (inf if none)
+    has_solution: bool
+    x: np.ndarray | None = None  # every column's value
+    choice: np.ndarray | None = None  # the on/off choices of the solution
 
 
 class CutMilp:
-    """The cut MILP on one highspy instance; ``add_cuts`` appends rows, ``solve`` re-runs it."""
+    """The cut MILP of a problem; ``cuts`` appends rows, ``solve`` re-runs it."""
 
-    def __init__(self, d: MixData, threads: int = 1, seed: int = 0, mip_rel_gap: float = 1e-5) -> None:
-        import highspy
-
-        self.d = d
-        n = d.n
-        self.free = np.flatnonzero(d.can_stop)
-        self.ycol = np.full(n, -1, dtype=np.int64)
-        self.ycol[self.free] = 2 * n + np.arange(self.free.size)
-        ncol = 2 * n + self.free.size
-        floor = d.run_floor
-        lo_D = np.where(d.can_stop, 0.0, floor)
-        top_t = np.maximum(peak_contribution(d), 0.0) + 1.0
-        cost = np.r_[np.zeros(n), np.ones(n), -d.F[self.free]]
-        lower = np.r_[lo_D, np.full(n, -_INF), np.zeros(self.free.size)]
-        upper = np.r_[d.upper, top_t, np.ones(self.free.size)]
-        integrality = np.r_[np.zeros(2 * n, dtype=np.int32), np.ones(self.free.size, dtype=np.int32)]
-        rows, cols, vals, rlo, rhi = [], [], [], [], []
-        m = len(d.resources)
-        keep = d.use_amt != 0
-        rows.append(d.use_res[keep])
-        cols.append(d.use_prod[keep])
-        vals.append(d.use_amt[keep])
-        rlo.append(np.full(m, -_INF))
-        rhi.append(d.capacity.astype(float))
-        f = self.free
-        k = f.size
-        # D_i − U_i y_i ≤ 0
-        r0 = m
-        rows += [r0 + np.arange(k), r0 + np.arange(k)]
-        cols += [f, self.ycol[f]]
-        vals += [np.ones(k), -d.upper[f]]
-        rlo.append(np.full(k, -_INF))
-        rhi.append(np.zeros(k))
-        # D_i − floor_i y_i ≥ 0 where the floor is positive
-        g = f[floor[f] > 0]
-        r1 = m + k
-        rows += [r1 + np.arange(g.size), r1 + np.arange(g.size)]
-        cols += [g, self.ycol[g]]
-        vals += [np.ones(g.size), -floor[g]]
-        rlo.append(np.zeros(g.size))
-        rhi.append(np.full(g.size, _INF))
-        nrow = m + k + g.size
-        R, C, V = np.concatenate(rows), np.concatenate(cols), np.concatenate(vals)
-        start, index, value = _csr(nrow, R, C, V)
-        h = highspy.Highs()
-        h.setOptionValue("output_flag", False)
-        h.setOptionValue("threads", int(threads))
-        h.setOptionValue("random_seed", int(seed))
-        h.setOptionValue("mip_rel_gap", float(mip_rel_gap))
-        h.setOptionValue("mip_abs_gap", 1e-9)
-        for name, val in LEAN_MIP.items():
-            h.setOptionValue(name, val)
-        offset = -float(np.sum(d.F[~d.can_stop]))
-        h.passModel(ncol, nrow, int(index.size), 2, -1, offset, cost, lower, upper,
-                    np.concatenate(rlo), np.concatenate(rhi), start, index, value, integrality)
-        self.h = h
+    def __init__(self, p: Problem, threads: int = 1, seed: int = 0, mip_rel_gap: float = 1e-5) -> None:
+        self.p = p
+        self.b = MilpBuilder(p.capacity)
+        for f in p.families:
+            f.add_to_milp(self.b)
+        cost, lo, hi, integer, rlo, rhi, R, C, V = self.b.arrays()
+        start, index, value = highs.csr(self.b.nrow, R, C, V)
+        self.h = highs.new(threads, seed, mip_rel_gap=float(mip_rel_gap), **LEAN_MIP)
+        self.h.passModel(int(cost.size), int(self.b.nrow), int(index.size), 2, -1, float(self.b.offset), cost,
+                         lo, hi, rlo, rhi, start, index, value, integer)
+        self.b.sink = self._add_rows
+        self.b.fixer = self._fix
         self.ncuts = 0
 
-    def add_cuts(self, products: np.ndarray, points: np.ndarray) -> int:
-        """Tangent cuts t_k − (c_k − 2 b_k D̄) D_k − b_k D̄² y_k ≤ 0 (y_k ≡ 1: on the right-hand side)."""
-        d, n = self.d, self.d.n
-        k = np.asarray(products, dtype=np.int64)
-        pt = np.asarray(points, dtype=float)
-        if k.size == 0:
-            return 0
-        slope = d.margin[k] - 2.0 * d.b[k] * pt
-        height = d.b[k] * pt * pt
-        has_y = self.ycol[k] >= 0
-        nnz_per = np.where(has_y, 3, 2)
-        start = np.r_[0, np.cumsum(nnz_per)[:-1]].astype(np.int32)
-        index = np.empty(int(nnz_per.sum()), dtype=np.int32)
-        value = np.empty(index.size)
-        index[start], value[start] = n + k, 1.0
-        index[start + 1], value[start + 1] = k, -slope
-        ys = start[has_y] + 2
-        index[ys], value[ys] = self.ycol[k[has_y]], -height[has_y]
-        rhs = np.where(has_y, 0.0, height)
-        self.h.addRows(int(k.size), np.full(k.size, -_INF), rhs, int(index.size), start, index, value)
-        self.ncuts += int(k.size)
-        return int(k.size)
+    def _add_rows(self, count: int, row_of: np.ndarray, cols: np.ndarray, vals: np.ndarray,
+                  lower: np.ndarray, upper: np.ndarray) -> None:
+        start, index, value = highs.csr(count, row_of, cols, vals)
+        self.h.addRows(int(count), lower, upper, int(index.size), start, index, value)
+        self.ncuts += int(count)
 
-    def fix_running(self, products: np.ndarray, values: np.ndarray) -> None:
-        """Fix y_k to 0 or 1 for the given products (bounds only; the column stays in the model)."""
-        k = np.asarray(products, dtype=np.int64)
-        if k.size == 0:
-            return
-        cols = self.ycol[k].astype(np.int32)
-        v = np.asarray(values, dtype=float)
-        self.h.changeColsBounds(int(k.size), cols, v, v)
+    def _fix(self, cols: np.ndarray, values: np.ndarray) -> None:
+        if cols.size:
+            self.h.changeColsBounds(int(cols.size), cols.astype(np.int32), values, values)
 
-    def start_from(self, volume: np.ndarray, slate: np.ndarray) -> None:
-        """A MIP start: the given plan, with t at its true contribution (every cut holds there)."""
+    def cuts(self, x: np.ndarray) -> int:
+        """Cuts wherever the solution ``x`` over-estimates a block's profit; how many."""
+        return sum(f.cuts(self.b, x) for f in self.p.families)
+
+    def cuts_at(self, values: list[np.ndarray], choice: np.ndarray) -> int:
+        """Cuts at a plan's own values (each family's variables) under ``choice``."""
+        return sum(f.cuts_at(self.b, v, z) for f, v, z in zip(self.p.families, values, self.p.split(choice)))
+
+    def fix(self, which: np.ndarray, on: np.ndarray) -> None:
+        """Fix the choices ``which`` (indices into the problem's choice array) on or off."""
+        which = np.asarray(which, dtype=np.int64)
+        on = np.asarray(on, dtype=bool)
+        for k, f in enumerate(self.p.families):
+            a, b = self.p.bounds[k], self.p.bounds[k + 1]
+            sel = (which >= a) & (which < b)
+            if sel.any():
+                f.milp_fix(self.b, which[sel] - a, on[sel])
+
+    def start_from(self, values: list[np.ndarray], choice: np.ndarray) -> None:
+        """A MIP start: the given plan, with each estimate at its true value (every cut holds there)."""
         import highspy
 
-        d = self.d
-        D = np.where(slate, volume, 0.0)
-        x = np.r_[D, d.contribution(D), slate[self.free].astype(float)]
+        x = np.zeros(self.b.ncol)
+        for f, v, z in zip(self.p.families, values, self.p.split(choice)):
+            for col, val in f.milp_start(self.b, v, z).items():
+                x[col] = val
         sol = highspy.HighsSolution()
         sol.col_value = x.tolist()
         sol.value_valid = True
         self.h.setSolution(sol)
 
-    def solve(self, time_limit: float | None) -> dict:
-        """Run the MILP; returns status, bound (upper), value, volumes, t and slate."""
-        import highspy
-
-        h, d, n = self.h, self.d, self.d.n
-        h.setOptionValue("time_limit", float(max(time_limit, 0.01)) if time_limit is not None else _INF)
-        h.run()
-        ms = h.getModelStatus()
-        info = h.getInfo()
-        out = {"status": h.modelStatusToString(ms), "optimal": ms == highspy.HighsModelStatus.kOptimal,
-               "time_limit": ms == highspy.HighsModelStatus.kTimeLimit,
-               "infeasible": ms == highspy.HighsModelStatus.kInfeasible,
-               "bound": float(info.mip_dual_bound) if np.isfinite(info.mip_dual_bound) else np.inf,
-               "has_solution": info.primal_solution_status == 2}
-        if out["has_solution"]:
-            x = np.asarray(h.getSolution().col_value, dtype=float)
-            slate = np.ones(n, dtype=bool)
-            slate[self.free] = x[2 * n:] > 0.5
-            out.update(volume=x[:n], t=x[n:2 * n], slate=slate)
-        return out
-
-
-def _csr(nrow: int, R: np.ndarray, C: np.ndarray, V: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    order = np.lexsort((C, R))
-    R, C, V = R[order], C[order], V[order]
-    start = np.searchsorted(R, np.arange(nrow + 1)).astype(np.int32)
-    return start, C.astype(np.int32), V.astype(float)
+    def solve(self, time_limit: float | None, mip_rel_gap: float) -> MilpResult:
+        """Run the MILP to ``mip_rel_gap``; its outcome, bound and solution."""
+        highs.set_options(self.h, {"time_limit": highs.time_option(time_limit), "mip_rel_gap": float(mip_rel_gap)})
+        got = highs.run(self.h)
+        info = self.h.getInfo()
+        bound = float(info.mip_dual_bound) if np.isfinite(info.mip_dual_bound) else np.inf
+        if got == highs.Outcome.INFEASIBLE:
+            return MilpResult(got, -np.inf, False)
+        has = info.primal_solution_status == 2
+        if not has:
+            return MilpResult(got, bound, False)
+        x = np.asarray(self.h.getSolution().col_value, dtype=float)
+        choice = self.p.join([f.milp_choice(self.b, x) for f in self.p.families])
+        return MilpResult(got, bound, True, x, choice)

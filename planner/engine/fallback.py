@@ -1,53 +1,37 @@
-"""Safety nets for a search stopped early: a plan that is always feasible, and a bound that is always valid.
+"""A plan that is always feasible, for a search stopped before it solved any slate.
 
-When the time limit ends the outer approximation before any slate has been
-solved, the planner still returns a plan (status ``time_limit``) rather than
-nothing: it solves, without a time limit, the first of these slates whose QP
-is feasible:
+When the time limit ends the search before any slate has been solved, the
+engine still returns a plan (status ``time_limit``) rather than nothing: it
+solves, without a time limit, the first of these choices whose QP is feasible:
 
 1. every product whose standalone best profit (shared limits ignored) beats
-   its fixed cost, as long as their minimum runs fit together;
-2. only the products without an on/off choice (always feasible once the
-   commitments fit, which the planner checks first).
+   its fixed cost, as long as their minimum runs fit together; no
+   all-or-nothing option taken;
+2. only the products without an on/off choice, no option taken (always
+   feasible once the commitments fit, which the engine checks first).
 
-The bound that goes with it, when the MILP gave none, is the sum of each
-product's standalone best over its own feasible volumes: a valid upper bound
-because dropping the shared limits can only raise profit.
+Its bound is the Lagrangian's best value, which is valid at every λ ≥ 0
+(at λ = 0 it is each block at its own best, the shared limits dropped).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from models.data import MixData
+from planner.engine.blocks import best_response
+from planner.engine.problem import Problem
 
 
-def _standalone_best(d: MixData, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """max over D in [lo, hi] of (a − v)·D − b·D² per product (currency); −inf where lo > hi."""
-    with np.errstate(divide="ignore", invalid="ignore"):
-        peak = np.where(d.b > 0, d.margin / (2 * np.where(d.b > 0, d.b, 1.0)), np.where(d.margin > 0, hi, lo))
-    D = np.clip(peak, lo, hi)
-    best = d.contribution(np.where(np.isfinite(D), D, 0.0))
-    return np.where(lo <= hi * (1 + 1e-12) + 1e-12, best, -np.inf)
-
-
-def standalone_bound(d: MixData) -> float:
-    """An upper bound on the products' profit (currency): each product at its own best, limits shared by none."""
-    U = d.upper
-    on = _standalone_best(d, d.run_floor, U) - d.F
-    fixed_lo = np.where(d.must_run, d.run_floor, 0.0)
-    forced = _standalone_best(d, fixed_lo, U) - d.F  # products without a choice run (F then unavoidable)
-    best = np.where(d.can_stop, np.maximum(on, 0.0), forced)
-    return float(np.sum(best))
-
-
-def fallback_slates(d: MixData) -> list[np.ndarray]:
-    """Slates to try, in order, when the search found none (see the module docstring)."""
-    base = ~d.can_stop
-    standalone = _standalone_best(d, d.run_floor, d.upper) - d.F
-    keen = base | (d.can_stop & (standalone > 0))
+def fallback_choices(p: Problem) -> list[np.ndarray]:
+    """Choices to try, in order, when the search found none (see the module docstring)."""
+    d = p.d
+    lo, hi = d.run_floor, np.maximum(d.upper, d.run_floor)
+    D = best_response(d.margin, d.b, lo, hi)
+    standalone = np.where(lo <= d.upper * (1 + 1e-12) + 1e-12, d.contribution(np.where(np.isfinite(D), D, 0.0)), -np.inf)
+    keen = ~d.can_stop | (d.can_stop & (standalone - d.F > 0))
+    none_taken = np.zeros(d.n_options, dtype=bool)
     out = []
     if np.all(d.used(np.where(keen, d.run_floor, 0.0)) <= d.capacity * (1 + 1e-9) + 1e-9):
-        out.append(keen)
-    out.append(base)
+        out.append(p.choice(keen, none_taken))
+    out.append(p.choice(~d.can_stop, none_taken))
     return out

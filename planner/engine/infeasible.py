@@ -23,6 +23,7 @@ import numpy as np
 
 from models.data import MixData, committed_floor
 
+from planner.engine import highs
 from planner.errors import InfeasibleError, SolverError
 from planner.scenario.schema import Scenario
 
@@ -98,6 +99,23 @@ def smallest_cuts(d: MixData) -> dict[str, tuple[float, float]]:
     return out
 
 
+def check_commitments(d: MixData, unit_of: dict[str, str] | None = None) -> None:
+    """Raise InfeasibleError naming each resource whose commitments exceed its capacity."""
+    need = d.used(committed_floor(d))
+    have = d.capacity_reach  # with every capacity option taken in full
+    conflicts = []
+    for r, name in enumerate(d.resources):
+        if need[r] > have[r] * (1 + 1e-9) + 1e-9:
+            users = sorted({d.products[k] for k, rr in zip(d.use_prod, d.use_res)
+                            if rr == r and committed_floor(d)[k] > 0})
+            unit = f" {unit_of.get(name, '')}" if unit_of else ""
+            conflicts.append(f"committed volumes of {', '.join(users)} need {need[r]:,.6g}{unit} "
+                             f"of {name}; it has {have[r]:,.6g}{unit} "
+                             f"(short by {need[r] - have[r]:,.6g}{unit})")
+    if conflicts:
+        raise InfeasibleError(conflicts)
+
+
 def explain(s: Scenario, d: MixData) -> None:
     """Raise InfeasibleError if the commitments do not fit, saying which, by how much, and what would fit."""
     found = conflicts(s, d)
@@ -124,14 +142,8 @@ def iis_names(d: MixData) -> tuple[list[str], list[str]]:
     row; products are listed only for a committed floor (> 0) in the subset;
     ([], []) if the LP is feasible.
     """
-    import highspy
-
-    h = highspy.Highs()
-    h.setOptionValue("output_flag", False)
-    h.setOptionValue("iis_strategy", 2)
-    h.setOptionValue("random_seed", 0)
-    h.setOptionValue("threads", 1)
-    inf = highspy.kHighsInf
+    h = highs.new(1, 0, iis_strategy=2)
+    inf = highs.INF
     floor = committed_floor(d)
     upper = np.where(np.isfinite(d.cap), d.cap, inf)
     h.addVars(d.n, floor.astype(float), upper.astype(float))
@@ -142,8 +154,7 @@ def iis_names(d: MixData) -> tuple[list[str], list[str]]:
     if nr:
         h.addRows(nr, np.full(nr, -inf), d.capacity.astype(float), len(amt), starts.astype(np.int32),
                   prod.astype(np.int32), amt.astype(float))
-    h.run()
-    if h.getModelStatus() != highspy.HighsModelStatus.kInfeasible:
+    if highs.run(h) != highs.Outcome.INFEASIBLE:
         return [], []
     _, iis = h.getIis()
     if not iis.valid_:

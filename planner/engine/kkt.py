@@ -19,33 +19,25 @@ from __future__ import annotations
 
 import numpy as np
 
-from models.data import MixData
+from planner.engine.settings import ACTIVE_DUAL, AT_BOUND, KKT_MAX_SYSTEM, KKT_PRIMAL, KKT_REDUCED, SLACK_ROW
 
 
-def polish(d: MixData, slate: np.ndarray, volume: np.ndarray, duals: np.ndarray,
-           max_system: int = 3000) -> tuple[np.ndarray, np.ndarray] | None:
-    """(volume, duals) solving the KKT system on the given active set, or None if not exact."""
-    lo = np.where(slate, d.run_floor, 0.0)
-    hi = np.where(slate, d.qp_upper, 0.0)
-    H = d.usage_dense() if len(d.resources) else np.zeros((0, d.n))
-    return polish_arrays(d.margin, d.b, H, d.capacity, lo, hi, volume, duals, max_system)
-
-
-def polish_arrays(c: np.ndarray, b: np.ndarray, H: np.ndarray, cap: np.ndarray, lo: np.ndarray,
+def polish(c: np.ndarray, b: np.ndarray, H: np.ndarray, cap: np.ndarray, lo: np.ndarray,
                   hi: np.ndarray, volume: np.ndarray, duals: np.ndarray,
-                  max_system: int = 3000) -> tuple[np.ndarray, np.ndarray] | None:
-    """The same polish on plain arrays: max Σ c·x − b·x² s.t. H x ≤ cap, lo ≤ x ≤ hi.
+                  max_system: int = KKT_MAX_SYSTEM) -> tuple[np.ndarray, np.ndarray] | None:
+    """(x, λ) solving the KKT system of max Σ c·x − b·x² s.t. H x ≤ cap, lo ≤ x ≤ hi on the active set
+    that ``volume`` and ``duals`` show, or None where that point is not an exact KKT point.
 
     Columns may be other than products (e.g. capacity options, with c the
-    negative cost and H the negative amounts added); (x, λ) or None.
+    negative cost and H the negative amounts added).
     """
     scale = np.maximum(np.maximum(np.abs(volume), np.where(np.isfinite(hi), np.abs(hi), 0.0)), 1.0)
-    at_lo = volume <= lo + 1e-7 * scale
-    at_hi = ~at_lo & (volume >= hi - 1e-7 * scale)
+    at_lo = volume <= lo + AT_BOUND * scale
+    at_hi = ~at_lo & (volume >= hi - AT_BOUND * scale)
     free = ~at_lo & ~at_hi
     fixed_val = np.where(at_lo, lo, np.where(at_hi, hi, 0.0))
     lam_scale = max(float(np.max(np.abs(c), initial=1.0)), 1.0)
-    active = np.flatnonzero(duals > 1e-9 * lam_scale)
+    active = np.flatnonzero(duals > ACTIVE_DUAL * lam_scale)
     fq = np.flatnonzero(free & (b > 0))
     fl = np.flatnonzero(free & (b == 0))
     k, m = active.size, fl.size
@@ -77,19 +69,19 @@ def polish_arrays(c: np.ndarray, b: np.ndarray, H: np.ndarray, cap: np.ndarray, 
 
 
 def _is_kkt(c, b, cap, H, D, lam, lo, hi, at_lo, at_hi, free, scale, lam_scale) -> bool:
-    tol_x = 1e-9 * scale
+    tol_x = KKT_PRIMAL * scale
     if np.any(D < lo - tol_x) or np.any(D > hi + tol_x):
         return False
-    if np.any(lam < -1e-9 * lam_scale):
+    if np.any(lam < -KKT_PRIMAL * lam_scale):
         return False
     used = H @ D
-    if np.any(used > cap + 1e-9 * np.maximum(np.abs(cap), 1.0)):
+    if np.any(used > cap + KKT_PRIMAL * np.maximum(np.abs(cap), 1.0)):
         return False
     reduced = c - 2.0 * b * D - H.T @ lam  # marginal profit of one more unit
-    tol_r = 1e-7 * lam_scale
+    tol_r = KKT_REDUCED * lam_scale
     if np.any(reduced[at_lo & (hi > lo)] > tol_r) or np.any(reduced[at_hi & (hi > lo)] < -tol_r):
         return False
     if np.any(np.abs(reduced[free]) > tol_r):
         return False
-    slack_rows = used < cap - 1e-7 * np.maximum(np.abs(cap), 1.0)
-    return not np.any(lam[slack_rows] > 1e-9 * lam_scale)
+    slack_rows = used < cap - SLACK_ROW * np.maximum(np.abs(cap), 1.0)
+    return not np.any(lam[slack_rows] > ACTIVE_DUAL * lam_scale)

@@ -1,30 +1,34 @@
-r"""Internal scaling of the mix data, so numbers over many orders of magnitude reach HiGHS near 1.
+r"""Internal scaling, so numbers over many orders of magnitude reach HiGHS near 1.
 
 A scenario may count one product in grams and another in pallets, one
-resource in seconds and another in tonnes: usage rates from 1e-6 to 1e4 in
-one matrix.  Solver tolerances are absolute (HiGHS: 1e-7 on feasibility), so
-such a matrix can return plans that break a small limit by more than the
-limit's own size.  Before solving, the planner measures each volume in units
-of σ_i and each resource row in units of ρ_r:
+resource in seconds and another in tonnes, fixed costs in the billions beside
+unit costs in cents.  Solver tolerances are absolute (HiGHS: 1e-7 on
+feasibility), so such data can return plans that break a small limit by more
+than the limit's own size.  The engine therefore measures each volume in
+units of σ_i, each resource row in units of ρ_r and money in units of μ:
 
 .. math::
 
     D_i = \sigma_i x_i, \qquad
-    a'_i = a_i \sigma_i,\; v'_i = v_i \sigma_i,\; b'_i = b_i \sigma_i^2,\;
-    L'_i = L_i / \sigma_i,\; M'_i = M_i / \sigma_i,\; C'_i = C_i / \sigma_i,
+    a'_i = a_i \sigma_i / \mu,\; v'_i = v_i \sigma_i / \mu,\; b'_i = b_i \sigma_i^2 / \mu,\;
+    F'_i = F_i / \mu,\; L'_i = L_i / \sigma_i,\; M'_i = M_i / \sigma_i,\; C'_i = C_i / \sigma_i,
 
-    h'_{ri} = h_{ri} \sigma_i / \rho_r, \qquad H'_r = H_r / \rho_r.
+    h'_{ri} = h_{ri} \sigma_i / \rho_r, \quad H'_r = H_r / \rho_r, \quad
+    A'_{ro} = A_{ro} / \rho_r, \quad c'_o = c_o / \mu.
 
-Money is not scaled, so the objective, the bound and the relative gap are the
-same numbers.  σ_i is the power of two nearest the volume's upper bound U_i
-(its own cap, the resources' room, or the peak of its contribution) and ρ_r
-the power of two nearest the capacity H_r (or, for H_r = 0, the row's largest
-scaled coefficient), so after scaling volumes lie in [0, ~1] and each row's
-capacity is ~1.  Powers of two make the scaling exact in binary floating
-point: the scaled problem is the same problem, only the exponents move.
-Back in scenario units: D = σ·x, shadow price λ_r = λ'_r / ρ_r (profit per
-original resource unit).  The plan is then checked against every limit in
-the scenario's own units (planner.api.build_plan).
+σ_i is the power of two nearest the volume's upper bound U_i (its own cap,
+the resources' room, or the peak of its contribution), ρ_r the power of two
+nearest the capacity H_r (or, for H_r = 0, the row's largest scaled
+coefficient), so volumes lie in [0, ~1] and each row's capacity is ~1.  Money
+is left as it is (μ = 1) while the largest standalone contribution or fixed
+cost lies in ``MONEY_PLAIN``; beyond, μ is the power of two that brings it to
+about ``MONEY_TARGET``.  Money is not brought down to ~1: the solvers'
+tolerances are absolute, so profits of order 1e6 keep a relative precision of
+about 1e-13, which certificates as tight as 1e-9 need.  Powers of two make the scaling exact in binary floating point: the
+scaled problem is the same problem, only the exponents move.  The scales are
+fixed when an engine is built, so every re-solve of it (other capacities,
+prices, samples) is measured alike and multipliers carry over.  Back in
+scenario units: D = σ·x, profit = μ·profit', shadow price λ_r = μ·λ'_r / ρ_r.
 """
 
 from __future__ import annotations
@@ -33,12 +37,15 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from models.data import MixData
+from models.data import MixData, peak_contribution
 
-from planner.engine.solve import MixSolution
+#: Largest money amounts (currency) left unscaled.
+MONEY_PLAIN = (1.0, 1e8)
+#: Size the largest money amount is scaled to where it lies outside ``MONEY_PLAIN``.
+MONEY_TARGET = 1e6
 
 
-def _pow2(x: np.ndarray) -> np.ndarray:
+def pow2(x: np.ndarray) -> np.ndarray:
     """The power of two nearest each positive finite x; 1 elsewhere."""
     x = np.asarray(x, dtype=float)
     ok = np.isfinite(x) & (x > 0)
@@ -48,36 +55,49 @@ def _pow2(x: np.ndarray) -> np.ndarray:
 
 
 @dataclass(frozen=True)
-class Scaling:
-    """Column scales σ (units of volume per scaled unit) and row scales ρ (resource units per scaled unit)."""
+class Scales:
+    """Column scales σ (units per scaled unit), row scales ρ (resource units per scaled unit), money μ (currency)."""
 
     col: np.ndarray
     row: np.ndarray
+    money: float
 
-    def unscale(self, sol: MixSolution) -> MixSolution:
-        """The solution in the scenario's units: volumes σ·x, shadow prices λ'/ρ (objective unchanged)."""
-        return replace(sol, volume=np.asarray(sol.volume) * self.col, duals=np.asarray(sol.duals) / self.row)
+    @classmethod
+    def of(cls, d: MixData) -> "Scales":
+        """The scales of ``d`` (see the module docstring)."""
+        col = pow2(d.upper)
+        amt = d.use_amt * col[d.use_prod]
+        row_max = np.zeros(len(d.resources))
+        if amt.size:
+            np.maximum.at(row_max, d.use_res, np.abs(amt))
+        row = pow2(np.where(d.capacity > 0, d.capacity, row_max))
+        sizes = np.r_[np.abs(peak_contribution(d)), np.abs(d.F), np.abs(d.opt_cost)]
+        sizes = sizes[np.isfinite(sizes) & (sizes > 0)]
+        top = float(sizes.max()) if sizes.size else 1.0
+        money = 1.0 if MONEY_PLAIN[0] <= top <= MONEY_PLAIN[1] else float(pow2(np.array([top / MONEY_TARGET]))[0])
+        return cls(col, row, money)
 
+    @classmethod
+    def identity(cls, d: MixData) -> "Scales":
+        """No scaling (every scale 1)."""
+        return cls(np.ones(d.n), np.ones(len(d.resources)), 1.0)
 
-def scale(d: MixData) -> tuple[MixData, Scaling]:
-    """The scaled data and its scales (see the module docstring)."""
-    col = _pow2(d.upper)
-    amt = d.use_amt * col[d.use_prod]
-    row_max = np.zeros(len(d.resources))
-    np.maximum.at(row_max, d.use_res, np.abs(amt))
-    row = _pow2(np.where(d.capacity > 0, d.capacity, row_max))
-    scaled = MixData(
-        products=d.products, resources=d.resources,
-        a=d.a * col, b=d.b * col * col, v=d.v * col, F=d.F,
-        committed=d.committed / col, min_run=d.min_run / col, cap=d.cap / col, must_run=d.must_run,
-        use_res=d.use_res, use_prod=d.use_prod, use_amt=amt / row[d.use_res], capacity=d.capacity / row,
-    )
-    return scaled, Scaling(col, row)
+    def apply(self, d: MixData) -> MixData:
+        """``d`` in the scaled units (every field kept, bounds recomputed)."""
+        s, r, mu = self.col, self.row, self.money
+        return replace(d, a=d.a * s / mu, b=d.b * s * s / mu, v=d.v * s / mu, F=d.F / mu,
+                       committed=d.committed / s, min_run=d.min_run / s, cap=d.cap / s,
+                       use_amt=d.use_amt * s[d.use_prod] / r[d.use_res], capacity=d.capacity / r,
+                       opt_amount=d.opt_amount / r[None, :], opt_cost=d.opt_cost / mu)
 
+    def volumes(self, x: np.ndarray) -> np.ndarray:
+        """Scaled volumes in the scenario's units."""
+        return np.asarray(x, dtype=float) * self.col
 
-def solve_scaled(d: MixData, **solve_args) -> MixSolution:
-    """solve_mix on the scaled data; the solution comes back in the scenario's units."""
-    from planner.engine.solve import solve_mix
+    def prices_out(self, lam: np.ndarray) -> np.ndarray:
+        """Scaled multipliers as shadow prices in currency per resource unit."""
+        return np.asarray(lam, dtype=float) * self.money / self.row
 
-    scaled, sc = scale(d)
-    return sc.unscale(solve_mix(scaled, **solve_args))
+    def prices_in(self, lam: np.ndarray) -> np.ndarray:
+        """Shadow prices (currency per resource unit) as scaled multipliers."""
+        return np.asarray(lam, dtype=float) * self.row / self.money

@@ -1,160 +1,192 @@
-"""The fixed-slate QP straight into highspy from numpy arrays (no Pyomo build).
+r"""The continuous QP of one fixed choice, straight into highspy from the families' columns.
 
-The same model as :func:`models.mix.build_mix_model` with ``slate`` given
-(the model of record; ``tests/test_fast.py`` checks the two agree): for the
-running products S,
+With every on/off choice fixed, each family of blocks contributes columns
+(:meth:`planner.engine.blocks.Blocks.continuous`); together they make the
+convex QP
 
-    max Σ_{i∈S} (a_i − v_i) D_i − b_i D_i² − F_i
-    s.t. Σ_i h_ri D_i ≤ H_r  (capacity, dual λ_r ≥ 0, currency per resource unit)
-         max(L_i, M_i) ≤ D_i ≤ min(C_i, peak_i)   (``MixData.qp_upper``).
+.. math::
 
-Stopped products are left out (volume 0).  HiGHS minimises, so it gets the
-negated objective with Hessian diag(2 b_i) (HiGHS's ½ xᵀQx convention).
-Small slates use HiGHS's active-set QP; from ``FAST_IPM_FROM`` running products
-its interior-point QP ('hipo', highspy-extras), which stays fast
-with thousands of products strictly inside their bounds.  Either answer is
-then polished on its active set by the closed-form KKT conditions
-(:mod:`planner.kkt`), which makes it exact to rounding and is checked before
-use.  A time of ~0.1 s at 10,000 products replaces seconds of Pyomo build.
+    \max \sum_j c_j x_j - q_j x_j^2 + K \quad\text{s.t.}\quad
+    \sum_j h_{rj} x_j \le H_r + \Delta_r \;(\text{dual } \lambda_r \ge 0),\qquad lo_j \le x_j \le hi_j
+
+(for products: x the running volumes, q the price slopes, K minus the fixed
+costs; for options usable in part: x the scale, c minus the cost, h minus the
+amounts; Δ the amounts of the all-or-nothing options taken).  Columns of
+blocks that are off are left out (value 0).  HiGHS minimises, so it gets the
+negated objective with Hessian diag(2q) (HiGHS's ½ xᵀQx convention).
+
+Small QPs use HiGHS's active-set method; from ``IPM_FROM`` columns its
+interior-point QP ('hipo', highspy-extras), which stays fast with thousands
+of columns strictly inside their bounds.  Either answer is then polished on
+its active set by the closed-form KKT conditions (:mod:`planner.engine.kkt`),
+which makes it exact to rounding and is checked before use; if it cannot be
+polished the other method is tried, and an unpolished answer is kept only
+as HiGHS's own optimum.
 """
 
 from __future__ import annotations
 
 import time
+from dataclasses import dataclass, field
 
 import numpy as np
 
-from models.data import MixData
-
+from planner.engine import highs
 from planner.engine.kkt import polish
-from planner.engine.qp import QPResult, has_ipm
-
-_INF = 1e30  # HiGHS's infinity (kHighsInf is inf; any value ≥ 1e20 counts as infinite)
-
-
-def column_usage(d: MixData, cols: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Capacity rows restricted to the columns ``cols``, column-wise: (start, row index, value)."""
-    pos = np.full(d.n, -1, dtype=np.int64)
-    pos[cols] = np.arange(cols.size)
-    keep = (pos[d.use_prod] >= 0) & (d.use_amt != 0)
-    c, r, v = pos[d.use_prod[keep]], d.use_res[keep], d.use_amt[keep]
-    order = np.lexsort((r, c))
-    c, r, v = c[order], r[order], v[order]
-    start = np.searchsorted(c, np.arange(cols.size + 1)).astype(np.int32)
-    return start, r.astype(np.int32), v.astype(float)
+from planner.engine.problem import Problem
+from planner.engine.settings import ASM_RETRY_UP_TO, IPM_FROM
 
 
-#: Running products from which the fast route starts with the interior-point QP (measured:
-#: the active-set QP took 2.5 s on 100 products with some fixed prices, 'hipo' 0.01 s).
-FAST_IPM_FROM = 60
-#: Largest slate on which the active-set QP is tried when the interior-point answer cannot be polished.
-ASM_RETRY_UP_TO = 300
+@dataclass
+class SlateResult:
+    """Outcome of one fixed-choice QP (amounts in the problem's units)."""
+
+    status: str  # "optimal", "time_limit", "infeasible", "error"
+    values: list[np.ndarray]  # per family: its variables (0 where off)
+    objective: float  # currency: the families' profit under this choice
+    duals: np.ndarray  # currency per resource unit, ≥ 0, shared-row order
+    seconds: float
+    method: str  # "highs-qp" or "hipo", "+kkt" where the polish made it exact
+    message: str = ""
+    choice: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=bool))
 
 
-def solve_slate_fast(d: MixData, slate: np.ndarray, time_limit: float | None = None,
-                     threads: int = 1, seed: int = 0, method: str | None = None) -> QPResult:
-    """Fixed-slate QP via highspy; same result type and meaning as :func:`planner.qp.solve_slate_qp`.
+@dataclass
+class _QP:
+    c: np.ndarray
+    q: np.ndarray
+    lo: np.ndarray
+    hi: np.ndarray
+    rows: np.ndarray
+    cols: np.ndarray
+    amounts: np.ndarray
+    cap: np.ndarray
+    constant: float
+    parts: list  # per family: (start column, Columns)
 
-    ``method``: None chooses (the active-set QP below ``FAST_IPM_FROM`` running
-    products, 'hipo' from there where installed, and the other one as well if
-    the first answer cannot be polished to an exact KKT point); 'highs-qp' or
-    'hipo' forces one.
-    """
+    @property
+    def ncol(self) -> int:
+        return int(self.c.size)
+
+    def dense(self) -> np.ndarray:
+        m = self.cap.size
+        flat = np.bincount(self.rows * self.ncol + self.cols, weights=self.amounts, minlength=m * self.ncol)
+        return flat.astype(float).reshape(m, self.ncol)
+
+
+def assemble(p: Problem, choice: np.ndarray) -> _QP:
+    """The QP of ``choice``: every family's columns laid end to end."""
+    parts, at = [], 0
+    cs, qs, los, his, rs, ks, vs = [], [], [], [], [], [], []
+    cap = p.capacity.astype(float).copy()
+    constant = 0.0
+    for f, z in zip(p.families, p.split(choice)):
+        col = f.continuous(z)
+        parts.append((at, col))
+        cs.append(col.c), qs.append(col.q), los.append(col.lo), his.append(col.hi)
+        rs.append(col.rows), ks.append(col.cols + at), vs.append(col.amounts)
+        constant += col.constant
+        if col.capacity is not None:
+            cap += col.capacity
+        at += col.size
+    cat = np.concatenate
+    return _QP(cat(cs), cat(qs), cat(los), cat(his), cat(rs).astype(np.int64), cat(ks).astype(np.int64),
+               cat(vs).astype(float), cap, constant, parts)
+
+
+def solve_choice(p: Problem, choice: np.ndarray, time_limit: float | None = None, threads: int = 1,
+                 seed: int = 0, method: str | None = None) -> SlateResult:
+    """The fixed-choice QP (see the module docstring); ``method`` forces 'highs-qp' or 'hipo'."""
+    t0 = time.perf_counter()
+    choice = np.asarray(choice, dtype=bool)
+    if not p.feasible(choice):
+        return _failed(p, "infeasible", t0, "none", "a running block cannot reach its minimum", choice)
+    qp = assemble(p, choice)
+    if qp.ncol == 0:
+        if np.any(qp.cap < 0):
+            return _failed(p, "infeasible", t0, "none", "a capacity is negative", choice)
+        return _result(p, qp, np.zeros(0), np.zeros(p.m), "optimal", t0, "none+kkt", choice)
     if method is not None:
-        return _solve_once(d, slate, time_limit, threads, seed, method)
-    on = int(np.count_nonzero(slate))
-    first = "hipo" if on >= FAST_IPM_FROM and has_ipm() else "highs-qp"
-    res = _solve_once(d, slate, time_limit, threads, seed, first)
+        return _solve_once(p, qp, choice, time_limit, threads, seed, method, t0)
+    first = "hipo" if qp.ncol >= IPM_FROM and highs.has_ipm() else "highs-qp"
+    res = _solve_once(p, qp, choice, time_limit, threads, seed, first, t0)
     if res.method.endswith("+kkt"):
         return res
-    other = "highs-qp" if first == "hipo" else ("hipo" if has_ipm() else None)
-    if other is None or (other == "highs-qp" and on > ASM_RETRY_UP_TO):
+    other = "highs-qp" if first == "hipo" else ("hipo" if highs.has_ipm() else None)
+    if other is None or (other == "highs-qp" and qp.ncol > ASM_RETRY_UP_TO):
         return res
-    alt = _solve_once(d, slate, time_limit, threads, seed, other)
+    alt = _solve_once(p, qp, choice, time_limit, threads, seed, other, t0)
     if alt.status == "optimal" and (res.status != "optimal" or alt.method.endswith("+kkt")):
         return alt
     return res
 
 
-def _solve_once(d: MixData, slate: np.ndarray, time_limit: float | None, threads: int, seed: int,
-                method: str) -> QPResult:
-    import highspy
-
-    t0 = time.perf_counter()
-    slate = np.asarray(slate, dtype=bool)
-    m = len(d.resources)
-    cols = np.flatnonzero(slate)
-    lo = d.run_floor[cols]
-    hi = d.qp_upper[cols]
-    c = d.margin[cols]
-    b = d.b[cols]
-    start, index, value = column_usage(d, cols)
-    h = highspy.Highs()
-    h.setOptionValue("output_flag", False)
-    h.setOptionValue("random_seed", int(seed))
-    h.setOptionValue("threads", int(threads))
-    if time_limit is not None:
-        h.setOptionValue("time_limit", float(max(time_limit, 0.01)))
+def _solve_once(p: Problem, qp: _QP, choice: np.ndarray, time_limit: float | None, threads: int, seed: int,
+                method: str, t0: float) -> SlateResult:
+    m, n = qp.cap.size, qp.ncol
+    h = highs.new(threads, seed, time_limit=highs.time_option(time_limit))
     if method == "hipo":
         h.setOptionValue("solver", "hipo")
-    qcols = np.flatnonzero(b > 0)
-    q_start = np.zeros(cols.size + 1, dtype=np.int32)
-    q_start[1:] = np.cumsum(b > 0)
-    fixed = float(np.sum(d.F[slate]))
-    status = h.passModel(int(cols.size), m, int(index.size), int(qcols.size), 1, 1, 1, fixed,
-                         -c, lo, np.where(np.isfinite(hi), hi, _INF),
-                         np.full(m, -_INF), d.capacity.astype(float), start, index, value,
-                         q_start, qcols.astype(np.int32), 2.0 * b[qcols], np.zeros(cols.size, dtype=np.int32))
-    if status == highspy.HighsStatus.kError:
-        return _failed(d, "error", t0, method, "HiGHS refused the fixed-slate QP's data")
+    start, index, value = highs.csc(n, qp.rows, qp.cols, qp.amounts)
+    quad = np.flatnonzero(qp.q > 0)
+    q_start = np.searchsorted(quad, np.arange(n + 1)).astype(np.int32)
+    hi = np.where(np.isfinite(qp.hi), qp.hi, highs.INF)
     try:
-        h.run()
-    except Exception as e:  # the solver itself failed: report, do not guess
-        return _failed(d, "error", t0, method, f"HiGHS failed on the fixed-slate QP: {e}")
-    ms = h.getModelStatus()
-    name = h.modelStatusToString(ms)
-    if ms == highspy.HighsModelStatus.kInfeasible:
-        return _failed(d, "infeasible", t0, method, "the fixed-slate QP is infeasible")
-    if ms == highspy.HighsModelStatus.kTimeLimit:
-        return _failed(d, "time_limit", t0, method, "time limit in the fixed-slate QP")
-    if ms != highspy.HighsModelStatus.kOptimal:
-        return _failed(d, "error", t0, method, f"HiGHS ended the fixed-slate QP with {name}")
+        h.passModel(n, m, int(index.size), int(quad.size), 1, 1, 1, 0.0, -qp.c, qp.lo, hi,
+                    np.full(m, -highs.INF), qp.cap, start, index, value,
+                    q_start, quad.astype(np.int32), 2.0 * qp.q[quad], np.zeros(n, dtype=np.int32))
+    except Exception as e:  # HiGHS refused the data: report, do not guess
+        return _failed(p, "error", t0, method, f"HiGHS refused the fixed-choice QP ({e})", choice)
+    got = highs.run(h)
+    if got == highs.Outcome.INFEASIBLE:
+        return _failed(p, "infeasible", t0, method, "the fixed-choice QP is infeasible", choice)
+    if got == highs.Outcome.TIME_LIMIT:
+        return _failed(p, "time_limit", t0, method, "time limit in the fixed-choice QP", choice)
+    if got != highs.Outcome.OPTIMAL:
+        return _failed(p, "error", t0, method, f"HiGHS ended the fixed-choice QP with "
+                       f"{h.modelStatusToString(h.getModelStatus())}", choice)
     sol = h.getSolution()
-    volume = np.zeros(d.n)
-    volume[cols] = np.clip(np.asarray(sol.col_value, dtype=float), lo, hi)
+    x = np.clip(np.asarray(sol.col_value, dtype=float), qp.lo, qp.hi)
     duals = np.maximum(-np.asarray(sol.row_dual, dtype=float), 0.0) if m else np.zeros(0)
-    exact = polish(d, slate, _volumes_from_duals(d, slate, volume, duals), duals)
+    H = qp.dense()
+    exact = polish(qp.c, qp.q, H, qp.cap, qp.lo, qp.hi, _from_duals(qp, H, x, duals), duals)
     if exact is None:
-        exact = polish(d, slate, volume, duals)
+        exact = polish(qp.c, qp.q, H, qp.cap, qp.lo, qp.hi, x, duals)
     if exact is not None:
-        volume, duals = exact
+        x, duals = exact
         method += "+kkt"
-    objective = float(np.sum(d.contribution(volume)) - fixed)
-    # A convex QP solved to optimality (and, after the polish, a checked KKT point): its value is its bound.
-    return QPResult("optimal", volume, objective, objective, duals, time.perf_counter() - t0, method)
+    return _result(p, qp, x, duals, "optimal", t0, method, choice)
 
 
-def _volumes_from_duals(d: MixData, slate: np.ndarray, volume: np.ndarray, duals: np.ndarray) -> np.ndarray:
-    """Sloped products' volumes re-derived from the duals: clip((c − Hᵀλ)/(2b), lo, hi).
+def _from_duals(qp: _QP, H: np.ndarray, x: np.ndarray, duals: np.ndarray) -> np.ndarray:
+    """Sloped columns re-derived from the duals, clip((c − Hᵀλ)/(2q), lo, hi); linear ones at a bound by sign.
 
-    An interior-point answer sits a little inside its bounds; the volumes the
+    An interior-point answer sits a little inside its bounds; the values the
     duals imply are exactly at a bound where they should be, which lets the
     KKT polish see the active set.
     """
-    out = volume.copy()
-    k = np.flatnonzero(slate & (d.b > 0))
-    if k.size == 0:
-        return out
-    priced = np.bincount(d.use_prod, weights=d.use_amt * duals[d.use_res], minlength=d.n) if duals.size \
-        else np.zeros(d.n)
-    out[k] = np.clip((d.margin[k] - priced[k]) / (2.0 * d.b[k]), d.run_floor[k], d.qp_upper[k])
-    lin = np.flatnonzero(slate & (d.b == 0))
-    reduced = d.margin[lin] - priced[lin]  # a fixed-price product's profit per extra unit at these duals
-    tol = 1e-6 * max(float(np.max(np.abs(d.margin), initial=1.0)), 1.0)
-    out[lin] = np.where(reduced > tol, d.qp_upper[lin], np.where(reduced < -tol, d.run_floor[lin], out[lin]))
-    return out
+    out = x.copy()
+    reduced = qp.c - (H.T @ duals if duals.size else 0.0)
+    k = qp.q > 0
+    out[k] = np.clip(reduced[k] / (2.0 * qp.q[k]), qp.lo[k], qp.hi[k])
+    tol = 1e-6 * max(float(np.max(np.abs(qp.c), initial=1.0)), 1.0)
+    lin = ~k
+    out[lin] = np.where(reduced[lin] > tol, qp.hi[lin], np.where(reduced[lin] < -tol, qp.lo[lin], out[lin]))
+    return np.where(np.isfinite(out), out, x)
 
 
-def _failed(d: MixData, status: str, t0: float, method: str, message: str) -> QPResult:
-    return QPResult(status, np.zeros(d.n), float("nan"), float("nan"), np.zeros(len(d.resources)),
-                    time.perf_counter() - t0, method, message)
+def _result(p: Problem, qp: _QP, x: np.ndarray, duals: np.ndarray, status: str, t0: float, method: str,
+            choice: np.ndarray) -> SlateResult:
+    values = []
+    for (at, col), f in zip(qp.parts, p.families):
+        v = np.zeros(f.n_vars)
+        v[col.index] = x[at:at + col.size]
+        values.append(v)
+    objective = float(qp.c @ x - qp.q @ (x * x) + qp.constant) if x.size else float(qp.constant)
+    return SlateResult(status, values, objective, np.asarray(duals, dtype=float), time.perf_counter() - t0,
+                       method, choice=choice)
+
+
+def _failed(p: Problem, status: str, t0: float, method: str, message: str, choice: np.ndarray) -> SlateResult:
+    return SlateResult(status, [np.zeros(f.n_vars) for f in p.families], float("nan"), np.zeros(p.m),
+                       time.perf_counter() - t0, method, message, choice)

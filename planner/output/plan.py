@@ -49,6 +49,7 @@ class ResourcePlan:
     shadow_price: float  # currency per resource unit, ≥ 0
     binding: bool
     unit: str
+    value_of_one_percent: float = 0.0  # currency: shadow price × 1 % of capacity, comparable across units
     # Filled by the capacity analysis (planner.capacity); None where not analysed or unbounded.
     shadow_price_range: list[float | None] | None = None  # [low, high] capacity where the price law holds
     shadow_price_slope: float | None = None  # dλ/dH on that range (currency per unit²)
@@ -83,8 +84,8 @@ class Plan:
 
     @property
     def bottlenecks(self) -> list[ResourcePlan]:
-        """Binding resources, dearest shadow price first."""
-        return sorted((r for r in self.resources if r.binding), key=lambda r: -r.shadow_price)
+        """Binding resources, the one whose extra 1 % is worth most first (the bottleneck; independent of units)."""
+        return sorted((r for r in self.resources if r.binding), key=lambda r: (-r.value_of_one_percent, -r.shadow_price))
 
     def to_dict(self) -> dict[str, Any]:
         out = {

@@ -69,21 +69,3 @@ def check_numbers(s: Scenario, d: MixData) -> None:
                                 f"must be a finite number >= 0 (got {float(d.capacity[r])!r})"))
     if problems:
         raise ScenarioError(problems, _SOURCE)
-
-
-def check_volumes(d: MixData, volume: np.ndarray, running: np.ndarray, rel_tol: float) -> None:
-    """Raise SolverError if solved volumes break a cap, a commitment or a minimum run (beyond ``rel_tol``)."""
-    from planner.errors import SolverError
-
-    runs = np.asarray(running, dtype=bool) | ~d.can_stop
-    floor = np.where(runs, np.where(d.must_run | d.can_stop, d.run_floor, 0.0), 0.0)
-    bad = []
-    for k in np.flatnonzero(volume > d.cap * (1 + rel_tol) + rel_tol):
-        bad.append(f"{d.products[k]} at {volume[k]:.9g} is above its max_volume {d.cap[k]:.9g}")
-    for k in np.flatnonzero(volume < floor * (1 - rel_tol) - rel_tol):
-        bad.append(f"{d.products[k]} at {volume[k]:.9g} is below its floor {floor[k]:.9g}")
-    for k in np.flatnonzero(~runs & (volume > 0)):
-        bad.append(f"{d.products[k]} is shut down but has volume {volume[k]:.9g}")
-    if bad:
-        raise SolverError("the solved plan breaks a limit, so no plan is reported (try --solver scip): "
-                          + "; ".join(bad))

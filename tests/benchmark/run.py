@@ -88,7 +88,7 @@ def stages(path: Path) -> tuple[dict, object, object, object]:
     from planner.api import build_plan
     from planner.scenario.loading import read_raw
     from planner.scenario.arrays import mix_data
-    from planner.engine.solve import solve_mix
+    from planner.engine import Engine
     from planner.scenario.validate import validate_scenario
 
     t = [time.perf_counter()]
@@ -98,7 +98,7 @@ def stages(path: Path) -> tuple[dict, object, object, object]:
     t.append(time.perf_counter())
     d = mix_data(s)
     t.append(time.perf_counter())
-    sol = solve_mix(d, rel_gap=GAP)
+    sol = Engine(d).solve(rel_gap=GAP)
     t.append(time.perf_counter())
     p = build_plan(s, d, sol, warnings)
     p.to_json()

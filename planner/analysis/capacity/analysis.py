@@ -7,7 +7,7 @@ import time
 import numpy as np
 
 from planner.errors import PlannerError
-from planner.engine.slateqp import solve_slate_fast
+from planner.engine import Engine
 from planner.output.plan import Plan
 from planner.scenario.arrays import mix_data
 from planner.scenario.schema import Scenario
@@ -49,11 +49,12 @@ def add_capacity_analysis(p: Plan, s: Scenario, choose: bool = False, rel_gap: f
 
 def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float | None) -> Plan:
     d = mix_data(s)
+    engine = Engine(d, units={r.name: r.unit for r in s.resources})
     slate = plan_slate(p, d.can_stop)
-    qp = solve_slate_fast(d, slate)
+    qp = engine.slate(slate)
     duals = qp.duals if qp.status == "optimal" else np.array([r.shadow_price for r in p.resources])
     deadline = None if budget is None else time.perf_counter() + budget
-    ranges = resource_ranges(d, slate, deadline=deadline)
+    ranges = resource_ranges(d, slate, rel_gap=rel_gap, deadline=deadline, engine=engine)
     for rp, rg in zip(p.resources, ranges):
         rp.shadow_price_range = [rg.low, rg.high]
         rp.shadow_price_slope = rg.slope
@@ -65,7 +66,7 @@ def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float |
                           f"re-checked for a better slate within the {budget:.2g} s budget ({', '.join(unchecked[:5])}"
                           f"{', …' if len(unchecked) > 5 else ''}): their ranges hold for this slate; "
                           "run planner plan --capacity to check them all")
-    base, values = value_options(s, d, slate, duals, rel_gap)
+    base, values = value_options(s, d, slate, duals, rel_gap, engine=engine)
     p.extras["options"] = [v.to_dict() for v in values]
     if choose and s.options:
         p.extras["option_pick"] = choose_options(s, d, base, slate, rel_gap)

@@ -16,9 +16,9 @@ Gains are measured from the plan without options re-solved to ``rel_gap``
 (tighter than a plan's default certificate), so two re-solves are compared
 on the same footing.
 
-The joint pick extends the model of record with one variable per option
-(binary for ``adds``, scale 0..1 for ``adds_up_to``) and solves it exactly
-(:func:`planner.solve.solve_mix`).
+The joint pick offers every option to the engine at once (an on/off choice
+for ``adds``, a scale 0..1 for ``adds_up_to``: :mod:`planner.engine.blocks.options`)
+and solves it exactly.
 """
 
 from __future__ import annotations
@@ -31,10 +31,10 @@ import numpy as np
 from models.data import MixData
 
 from planner.scenario.schema import Scenario
-from planner.engine.solve import solve_mix
+from planner.engine import Engine
 from planner.analysis.capacity.data import option_amounts, option_full_cost, with_options
 from planner.analysis.capacity.ranging import slate_change
-from planner.analysis.capacity.warm import WarmMix
+from planner.analysis.capacity.resolve import resolve
 
 
 @dataclass
@@ -61,33 +61,38 @@ class OptionValue:
 
 
 def value_options(s: Scenario, d: MixData, base_slate: np.ndarray, duals: np.ndarray,
-                  rel_gap: float = 1e-7) -> tuple[float, list[OptionValue]]:
-    """(base profit re-solved to ``rel_gap``, each option's value), profits with plant-wide cost."""
+                  rel_gap: float = 1e-7, engine: Engine | None = None) -> tuple[float, list[OptionValue]]:
+    """(base profit re-solved to ``rel_gap``, each option's value), profits with plant-wide cost.
+
+    ``engine``: the scenario's engine on ``d`` (built if not given).
+    """
     if not s.options:
         return float("nan"), []
     dd = with_options(d, s)
-    warm = WarmMix(d, dd.capacity_reach, rel_gap)
-    base = warm.solve(d.capacity, known=[base_slate])
-    base_profit = base.profit - s.plant_fixed_cost
+    engine = engine or Engine(d)
+    offered = Engine(dd)
+    base = resolve(engine, d.capacity, rel_gap, known=[base_slate])
+    base_profit = base.objective - s.plant_fixed_cost
     out = []
     for k, o in enumerate(s.options):
         amount = dd.opt_amount[k]
         total = float(amount.sum())
-        full = warm.solve(d.capacity + amount, known=[base.slate])
-        gain_full = full.profit - base.profit
+        full = resolve(engine, d.capacity + amount, rel_gap, known=[base.running])
+        gain_full = full.objective - base.objective
         estimate = float(duals @ amount)
         if o.adds is not None:
-            used, slate, gain = 1.0, full.slate, gain_full
+            used, slate, gain = 1.0, full.running, gain_full
             cost = float(o.cost or 0.0)
         else:
-            sol = solve_mix(dd.with_options(np.arange(dd.n_options) == k), rel_gap=rel_gap)
+            sol = _certified(offered.solve(rel_gap=rel_gap, options=np.arange(dd.n_options) == k,
+                                           known=[base.running]))
             used = float(sol.option_scale[0]) if sol.option_scale.size else 0.0
             cost = used * option_full_cost(o)
-            gain = sol.objective + cost - base.profit
+            gain = sol.objective + cost - base.objective
             slate = sol.running
             if used <= 1e-12:
-                used, cost, gain, slate = 0.0, 0.0, 0.0, base.slate
-        change = slate_change(d, base.slate, np.asarray(slate, dtype=bool))
+                used, cost, gain, slate = 0.0, 0.0, 0.0, base.running
+        change = slate_change(d, base.running, np.asarray(slate, dtype=bool))
         net = gain - cost
         out.append(OptionValue(
             name=o.name, kind="whole" if o.adds is not None else "part", adds=option_amounts(s, o), used=used,
@@ -101,7 +106,7 @@ def choose_options(s: Scenario, d: MixData, base_profit: float, base_slate: np.n
                    rel_gap: float = 1e-7) -> dict[str, Any]:
     """The best set of options chosen jointly (binary shifts, continuous overtime and material)."""
     dd = with_options(d, s)
-    sol = solve_mix(dd, rel_gap=rel_gap)
+    sol = _certified(Engine(dd).solve(rel_gap=rel_gap, known=[np.asarray(base_slate, dtype=bool)]))
     picks = []
     for k, o in enumerate(s.options):
         scale = float(sol.option_scale[k])
@@ -116,3 +121,12 @@ def choose_options(s: Scenario, d: MixData, base_profit: float, base_slate: np.n
             "net_gain": profit - base_profit, "gap": sol.gap, "status": sol.status,
             "slate_change": slate_change(d, np.asarray(base_slate, dtype=bool), sol.running),
             "volumes": {p: float(v) for p, v in zip(d.products, sol.volume)}}
+
+
+def _certified(sol):
+    """The solution, or SolverError where the engine could not certify it."""
+    from planner.errors import SolverError
+
+    if sol.status != "optimal":
+        raise SolverError("valuing the capacity options could not certify a plan: " + "; ".join(sol.messages))
+    return sol

@@ -13,14 +13,15 @@ import numpy as np
 
 from models.data import MixData
 
-from planner.engine.slateqp import solve_slate_fast
+from planner.engine import Engine
 from planner.analysis.capacity.parametric import Degenerate, Piece, SlateQP, classify, is_kkt, piece_at, pivot
 
 
 class SlatePath:
     """Profit, volumes and duals of one slate as exact functions of t along ``u``."""
 
-    def __init__(self, d: MixData, slate: np.ndarray, u: np.ndarray) -> None:
+    def __init__(self, engine: Engine, d: MixData, slate: np.ndarray, u: np.ndarray) -> None:
+        self.engine = engine
         self.d = d
         self.slate = np.asarray(slate, dtype=bool).copy()
         self.u = np.asarray(u, dtype=float)
@@ -76,7 +77,7 @@ class SlatePath:
             tt = t + shift * max(abs(t), 1.0)
             if not self.feasible(tt):
                 continue
-            res = solve_slate_fast(self.d.with_capacity(self.cap0 + tt * self.u), self.slate)
+            res = self.engine.slate(self.slate, capacity=self.cap0 + tt * self.u)
             self.qp_solves += 1
             if res.status != "optimal":
                 continue

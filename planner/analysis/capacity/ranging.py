@@ -7,7 +7,7 @@ optimal profit is quadratic in H.  The range ends at the first event — another
 limit starts or stops binding, a volume reaches zero, a minimum or a cap, or a
 product held at a bound would move — or where another slate of running
 products becomes better.  The slate is checked by re-solving the
-mixed-integer plan (:mod:`.warm`) at both ends; where it differs, the exact
+mixed-integer plan with the scenario's engine (:mod:`.resolve`) at both ends; where it differs, the exact
 crossing of the two slates' profit curves is found in closed form and checked
 by a re-solve just inside it.
 """
@@ -21,10 +21,10 @@ import numpy as np
 
 from models.data import MixData, committed_floor, tight_upper
 
-from planner.engine.slateqp import solve_slate_fast
+from planner.engine import Engine
 from planner.analysis.capacity.parametric import Degenerate, SlateQP, classify, is_kkt, piece_at
 from planner.analysis.capacity.paths import SlatePath, overtakes
-from planner.analysis.capacity.warm import WarmMix, slate_key
+from planner.analysis.capacity.resolve import resolve, slate_key
 
 #: Relative step inside a crossing at which the slate is re-checked.
 INSIDE = 1e-6
@@ -67,8 +67,11 @@ def reach_of(d: MixData, r: int) -> float:
 
 
 def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6,
-                    deadline: float | None = None) -> list[Range]:
+                    deadline: float | None = None, engine: Engine | None = None) -> list[Range]:
     """Ranges of every resource's shadow price at the optimal ``slate`` of ``d``.
+
+    ``engine``: the scenario's engine (one is built on ``d`` if not given); its
+    re-solves are certified to ``rel_gap``.
 
     Each range end is checked for a better slate by re-solving the mixed-integer
     plan there, dearest shadow price first; past ``deadline`` (a
@@ -76,12 +79,13 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6,
     range, flagged ``slates_checked=False`` with the reason saying so.
     """
     slate = np.asarray(slate, dtype=bool)
+    engine = engine or Engine(d)
     R = len(d.resources)
     need = d.used(committed_floor(d))
     paths, pieces, ends = [], [], []
-    start = _start(d, slate)  # one solve serves every direction
+    start = _start(engine, d, slate)  # one solve serves every direction
     for r in range(R):
-        path = SlatePath(d, slate, np.eye(R)[r])
+        path = SlatePath(engine, d, slate, np.eye(R)[r])
         piece = None
         if start is not None:
             try:
@@ -106,8 +110,6 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6,
                 t_hi = max(d.capacity[r], 1.0)
         t_lo = max(piece.t_lo, path.t_min, need[r] - d.capacity[r], -d.capacity[r])
         ends.append((t_lo, t_hi))
-    reach = d.capacity + np.array([max(e[1], 0.0) for e in ends])
-    warm = WarmMix(d, reach, rel_gap)
     out: list[Range | None] = [None] * R
     # dearest shadow prices first: where a time budget runs out, the bottlenecks are done
     order = sorted(range(R), key=lambda r: -(float(pieces[r].lam(0.0)[r]) if pieces[r] is not None else -1.0))
@@ -135,7 +137,7 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6,
             if sign * t_end <= 0:
                 continue
             try:
-                change = _slate_change_between(d, warm, path, slate, r, t_end, sign, deadline)
+                change = _slate_change_between(d, engine, rel_gap, path, slate, r, t_end, sign, deadline)
             except TimeoutError:  # the budget ran out before or during this end's check
                 checked = False
                 if sign > 0:
@@ -154,15 +156,15 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6,
     return [x for x in out if x is not None]
 
 
-def _start(d: MixData, slate: np.ndarray):
+def _start(engine: Engine, d: MixData, slate: np.ndarray):
     """The active set of the plan's slate at the scenario's capacities (None if not found)."""
-    res = solve_slate_fast(d, slate)
+    res = engine.slate(slate, capacity=d.capacity)
     if res.status != "optimal":
         return None
     return classify(SlateQP.of(d, slate), res.volume, res.duals)
 
 
-def _slate_change_between(d: MixData, warm: WarmMix, path: SlatePath, slate: np.ndarray, r: int,
+def _slate_change_between(d: MixData, engine: Engine, rel_gap: float, path: SlatePath, slate: np.ndarray, r: int,
                           t_end: float, sign: int, deadline: float | None = None) -> tuple[float, str] | None:
     """The nearest point between 0 and t_end where another slate becomes optimal, with its text.
 
@@ -176,16 +178,16 @@ def _slate_change_between(d: MixData, warm: WarmMix, path: SlatePath, slate: np.
     for _ in range(8):
         if deadline is not None and time.perf_counter() > deadline:
             raise TimeoutError("the time budget is spent")
-        if warm.no_better_slate(d.capacity + target * u, path.profit(target)):
+        if engine.no_better(path.profit(target), rel_gap, capacity=d.capacity + target * u):
             return found
-        res = warm.solve(d.capacity + target * u, known=[slate], deadline=deadline)
-        if slate_key(res.slate) == slate_key(slate):
+        res = resolve(engine, d.capacity + target * u, rel_gap, known=[slate], deadline=deadline)
+        if slate_key(res.running) == slate_key(slate):
             return found
-        other = SlatePath(d, res.slate, u)
+        other = SlatePath(engine, d, res.running, u)
         t_c = overtakes(path, other, 0.0, target)
         if t_c is None:
             return found
-        found = (t_c, slate_change(d, slate, res.slate))
+        found = (t_c, slate_change(d, slate, res.running))
         # re-check just inside the crossing: a third slate may come first
         target = t_c - sign * INSIDE * max(abs(t_c), abs(d.capacity[r]), 1.0)
         if sign * target <= 0:

@@ -1,8 +1,8 @@
 """Optimal profit along one resource's capacity, with the exact points where things change.
 
 At each of the evenly spaced capacities the mixed-integer plan is re-solved
-(:class:`.warm.WarmMix`: one persistent cut MILP, cuts carried from point to
-point) and every slate met is followed exactly along the capacity
+by the scenario's engine (:mod:`.resolve`: warm-started from the point before,
+its slate the first incumbent) and every slate met is followed exactly along the capacity
 (:class:`.paths.SlatePath`: piecewise quadratic profit, affine volumes and
 shadow prices).  Where two neighbouring points run different slates the
 change point is the crossing of the two slates' profit curves, solved in
@@ -10,8 +10,9 @@ closed form and confirmed by re-solves just either side of it (if a third
 slate shows there, the search recurses; if no crossing is found it falls back
 to bisection on re-solves).  Inside a slate's stretch its pieces give the
 points where a limit starts or stops binding or a volume reaches a bound, and
-the shadow-price lines give where the bottleneck (the binding limit with the
-highest shadow price) changes.
+the shadow-price lines give where the bottleneck changes (the binding limit
+whose extra one per cent of capacity is worth most: :func:`models.economics.bottleneck`,
+the same whatever unit each resource is counted in).
 
 Capacities in the resource's unit; profits in currency per period, after the
 plant-wide fixed cost (as in the Plan); shadow prices in currency per unit.
@@ -33,7 +34,9 @@ from planner.scenario.arrays import mix_data
 from planner.scenario.schema import Scenario
 from planner.analysis.capacity.paths import SlatePath, overtakes
 from planner.analysis.capacity.ranging import slate_change
-from planner.analysis.capacity.warm import WarmMix, slate_key
+from planner.analysis.capacity.resolve import resolve, slate_key
+from planner.engine import Engine
+from models.economics import bottleneck
 
 #: Relative distance either side of a change point at which it is confirmed by re-solving.
 SIDE = 1e-7
@@ -84,17 +87,21 @@ class _Sweeper:
         self.d, self.r, self.plant = d, r, plant_fixed
         self.u = np.eye(len(d.resources))[r]
         self.H0 = float(d.capacity[r])
-        reach = d.capacity.copy()
-        reach[r] = max(top, self.H0)
-        self.warm = WarmMix(d, reach, rel_gap)
+        self.rel_gap = rel_gap
+        self.engine = Engine(d)
+        self.resolves = 0
         self.paths: dict[bytes, SlatePath] = {}
         self.last: np.ndarray | None = None  # the slate best() returned last
         self.certified = 0  # points settled by the dual bound alone
 
+    def cap(self, t: float) -> np.ndarray:
+        """Every resource's capacity at H0 + t on the swept one (resource units)."""
+        return self.d.capacity + t * self.u
+
     def path(self, slate: np.ndarray) -> SlatePath:
         key = slate_key(slate)
         if key not in self.paths:
-            self.paths[key] = SlatePath(self.d, slate, self.u)
+            self.paths[key] = SlatePath(self.engine, self.d, slate, self.u)
         return self.paths[key]
 
     def best(self, t: float, quick: bool = False) -> np.ndarray:
@@ -103,25 +110,15 @@ class _Sweeper:
         ``quick``: near a point just solved (confirming a change point), first
         try whether a dual bound shows that nothing beats the slate met last.
         """
-        hint = None  # binding rows of a slate already followed here: a good guess for a new one
-        for known_path in self.paths.values():
-            near = next((q for q in known_path.pieces if q.contains(t)), None)
-            if near is not None:
-                hint = near.active
-                break
-
-        def evaluate(slate: np.ndarray):
-            p = self.path(slate).at(t, hint)
-            return (-np.inf, None) if p is None else (self.path(slate).q.profit(p.x(t)), p.x(t))
-
         cap = self.d.capacity + t * self.u
         if quick and self.last is not None:  # the slate met last, if a dual bound shows nothing beats it
             value = self.path(self.last).profit(t)
-            if np.isfinite(value) and self.warm.no_better_slate(cap, value):
+            if np.isfinite(value) and self.engine.no_better(value, self.rel_gap, capacity=cap):
                 self.certified += 1
                 return self.last
         known = [self.last] if self.last is not None else []  # (each known slate costs a QP solve)
-        self.last = self.warm.solve(cap, evaluate, known).slate
+        self.resolves += 1
+        self.last = resolve(self.engine, cap, self.rel_gap, known).running
         return self.last
 
     def better_of(self, t: float, slates: list[np.ndarray]) -> np.ndarray:
@@ -166,11 +163,11 @@ class _Sweeper:
         return 0.5 * (lo + hi)
 
 
-def _bottleneck(d: MixData, lam: np.ndarray) -> str | None:
+def _bottleneck(d: MixData, lam: np.ndarray, capacity: np.ndarray) -> str | None:
+    """The bottleneck's name at shadow prices ``lam`` and these capacities (None if nothing binds)."""
     scale = max(float(np.max(np.abs(d.margin), initial=1.0)), 1.0)
-    if lam.size == 0 or np.max(lam) <= 1e-9 * scale:
-        return None
-    return d.resources[int(np.argmax(lam))]
+    k = bottleneck(lam, capacity, tol=1e-9 * scale)
+    return None if k is None else d.resources[k]
 
 
 def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, steps: int,
@@ -213,10 +210,10 @@ def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, step
             sw.locate(float(T[k]), slates[k], float(T[k + 1]), slates[k + 1], changes)
     points = [_point(sw, float(t), sl) for t, sl in zip(T, slates)]
     bps = _breakpoints(sw, T, slates, changes)
-    stats = {"seconds": time.perf_counter() - t_start, "fast_solves": sw.warm.fast_solves,
+    stats = {"seconds": time.perf_counter() - t_start, "fast_solves": sw.resolves,
              "dual_checks": sw.certified,
-             "milp_solves": sw.warm.milp_solves,
-             "qp_solves": sum(p.qp_solves for p in sw.paths.values()) + sw.warm.qp_solves,
+             "milp_solves": 0,
+             "qp_solves": sum(p.qp_solves for p in sw.paths.values()),
              "slates": len(sw.paths), "rel_gap": rel_gap}
     return Sweep(resource, unit, lo, hi, s.currency, points, bps, stats)
 
@@ -228,7 +225,8 @@ def _point(sw: _Sweeper, t: float, slate: np.ndarray) -> SweepPoint:
     x = np.where(np.abs(x) <= 1e-9 * np.maximum(d.upper, 1.0), 0.0, x)
     return SweepPoint(capacity=sw.H0 + t, profit=path.q.profit(p.x(t)) - sw.plant, shadow_price=float(lam[sw.r]),
                       volumes={n: float(v) for n, v in zip(d.products, x)},
-                      slate=[n for n, on in zip(d.products, slate) if on], bottleneck=_bottleneck(d, lam))
+                      slate=[n for n, on in zip(d.products, slate) if on],
+                      bottleneck=_bottleneck(d, lam, sw.cap(t)))
 
 
 def _breakpoints(sw: _Sweeper, T: np.ndarray, slates: list, changes: list) -> list[Breakpoint]:
@@ -244,7 +242,7 @@ def _breakpoints(sw: _Sweeper, T: np.ndarray, slates: list, changes: list) -> li
         lam_a = la.lam(ta) if la else np.zeros(len(d.resources))
         lam_b = lb.lam(ta) if lb else np.zeros(len(d.resources))
         text = "slate: " + slate_change(d, before, after)
-        ba, bb = _bottleneck(d, lam_a), _bottleneck(d, lam_b)
+        ba, bb = _bottleneck(d, lam_a, sw.cap(ta)), _bottleneck(d, lam_b, sw.cap(ta))
         if ba != bb:
             text += f"; bottleneck: {ba or 'none'} → {bb or 'none'}"
         profit, above = pa.profit(ta) - sw.plant, pb.profit(ta) - sw.plant
@@ -260,7 +258,7 @@ def _breakpoints(sw: _Sweeper, T: np.ndarray, slates: list, changes: list) -> li
                 lam_a = np.maximum(p.lam(p.t_hi), 0)
                 lam_b = np.maximum(nxt.lam(p.t_hi), 0) if nxt else lam_a
                 text = p.why_hi
-                ba, bb = _bottleneck(d, lam_a), _bottleneck(d, lam_b)
+                ba, bb = _bottleneck(d, lam_a, sw.cap(p.t_hi)), _bottleneck(d, lam_b, sw.cap(p.t_hi))
                 if ba != bb:
                     text += f"; bottleneck: {ba or 'none'} → {bb or 'none'}"
                 out.append(Breakpoint(sw.H0 + p.t_hi, text, "limit", path.profit(p.t_hi) - sw.plant,
@@ -271,23 +269,31 @@ def _breakpoints(sw: _Sweeper, T: np.ndarray, slates: list, changes: list) -> li
 
 
 def _bottleneck_crossings(sw: _Sweeper, path: SlatePath, p, a: float, b: float) -> list[Breakpoint]:
-    """Points inside one piece where another binding limit's shadow price overtakes the highest."""
+    """Points inside one piece where another binding limit's extra 1 % overtakes the bottleneck's.
+
+    On the piece λ_j(t) = λ_j(a) + λ'_j·(t − a) and H_j(t) = H_j(a) + u_j·(t − a), so each
+    value 0.01·λ_j·H_j is quadratic in t and the crossings are roots in closed form.
+    """
     d, out = sw.d, []
     t = a
     for _ in range(len(d.resources)):
         lam = np.maximum(p.lam(t), 0)
-        cur = _bottleneck(d, lam)
+        cur = _bottleneck(d, lam, sw.cap(t))
         if cur is None:
             break
         c = d.resources.index(cur)
         best_t, best_j = b, None
+        lam_t, cap_t = p.lam(t), sw.cap(t)
         for j in np.flatnonzero(p.active):
-            rate = p.dlam[j] - p.dlam[c]
-            if j == c or rate <= 1e-15:
+            if j == c:
                 continue
-            tj = t + (p.lam(t)[c] - p.lam(t)[j]) / rate
-            if t < tj < best_t:
-                best_t, best_j = tj, j
+            # w_j(s) − w_c(s) = k0 + k1·s + k2·s² for s = t' − t
+            k0 = lam_t[j] * cap_t[j] - lam_t[c] * cap_t[c]
+            k1 = p.dlam[j] * cap_t[j] + lam_t[j] * sw.u[j] - p.dlam[c] * cap_t[c] - lam_t[c] * sw.u[c]
+            k2 = p.dlam[j] * sw.u[j] - p.dlam[c] * sw.u[c]
+            s_cross = _first_rise(k0, k1, k2, best_t - t)
+            if s_cross is not None:
+                best_t, best_j = t + s_cross, j
         if best_j is None:
             break
         lam_here = p.lam(best_t)
@@ -295,3 +301,21 @@ def _bottleneck_crossings(sw: _Sweeper, path: SlatePath, p, a: float, b: float) 
                               path.profit(best_t) - sw.plant, float(lam_here[sw.r]), float(lam_here[sw.r])))
         t = best_t + 1e-12 * max(abs(best_t), 1.0)
     return out
+
+
+def _first_rise(k0: float, k1: float, k2: float, width: float) -> float | None:
+    """Smallest s in (0, width) past which k0 + k1·s + k2·s² turns positive (None if it does not)."""
+    scale = max(abs(k0), abs(k1) * max(width, 1.0), abs(k2) * max(width, 1.0) ** 2, 1e-300)
+    roots = []
+    if abs(k2) > 1e-15 * scale:
+        disc = k1 * k1 - 4 * k2 * k0
+        if disc >= 0:
+            sq = np.sqrt(disc)
+            roots = [(-k1 - sq) / (2 * k2), (-k1 + sq) / (2 * k2)]
+    elif abs(k1) > 1e-15 * scale:
+        roots = [-k0 / k1]
+    for s in sorted(x for x in roots if 0 < x < width):
+        after = s + 1e-9 * max(width, 1.0)
+        if k0 + k1 * after + k2 * after * after > 0:
+            return float(s)
+    return None

@@ -2,7 +2,7 @@
 
 ``run_risk(scenario, samples, seed)`` plans the point estimate, draws the samples
 (:mod:`.sampling`), evaluates the plan under each (:mod:`.evaluate`) and re-optimises
-each exactly on Dask (:mod:`.run`, :mod:`.fastmix`).
+each exactly with the engine on Dask (:mod:`.run`).
 """
 
 from planner.analysis.risk.run import RiskResult, run_risk

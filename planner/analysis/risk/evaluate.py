@@ -21,6 +21,8 @@ profit_s = Σ_i (price_i − v_s,i)·sold_i − Σ_i F_i·running_i − plant fi
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from models.data import MixData
@@ -36,10 +38,9 @@ def sample_arrays(base: MixData, samples: Samples) -> dict[str, np.ndarray]:
 
 
 def sample_data(base: MixData, a: np.ndarray, b: np.ndarray, v: np.ndarray, H: np.ndarray) -> MixData:
-    """The mix data of one sample: the base structure with these numbers (bounds recomputed)."""
-    return MixData(base.products, base.resources, np.asarray(a, float), np.asarray(b, float),
-                   np.asarray(v, float), base.F, base.committed, base.min_run, base.cap, base.must_run,
-                   base.use_res, base.use_prod, base.use_amt, np.asarray(H, float))
+    """The mix data of one sample: the base with these numbers, every other field kept (bounds recomputed)."""
+    return replace(base, a=np.asarray(a, float), b=np.asarray(b, float), v=np.asarray(v, float),
+                   capacity=np.asarray(H, float))
 
 
 def evaluate_plan(plan: Plan, base: MixData, arrays: dict[str, np.ndarray]) -> dict[str, np.ndarray]:

@@ -26,7 +26,7 @@ from models.data import MixData
 from planner.output.plan import Plan
 from planner.scenario.schema import Scenario
 from planner.analysis.risk.evaluate import evaluate, sample_arrays
-from planner.analysis.risk.fastmix import SampleSolver
+from planner.engine import Engine
 from planner.analysis.risk.sampling import draw_samples
 
 #: Seed offset of the independent samples that re-score the choice.
@@ -39,14 +39,15 @@ def robust_choice(s: Scenario, base: MixData, point: Plan, arrays: dict[str, np.
     start = tuple(bool(p.running) for p in point.products)
     counts = Counter(map(tuple, np.asarray(running, dtype=bool).tolist()))
     slates = [start] + [sl for sl, _ in counts.most_common() if sl != start][: top - 1]
-    solver = SampleSolver(base)
+    engine = Engine(base)
     check = sample_arrays(base, draw_samples(s, len(arrays["a"]), seed + CHECK_SEED_OFFSET))
     rows = []
     for sl in slates:
         slate = np.array(sl, dtype=bool)
-        status, obj, vol, _ = solver._slate_qp(base, slate)
-        if status != "optimal":
+        got = engine.slate(slate)
+        if got.status != "optimal":
             continue
+        obj, vol = got.objective, got.volume
         price = base.a - base.b * vol
         fixed = float(np.sum(base.F[slate | base.must_run])) + s.plant_fixed_cost
         here = evaluate(price, vol, fixed, base, arrays)["profit"]

@@ -5,10 +5,11 @@
 3. Evaluate the plan under each sample (:mod:`planner.risk.evaluate`, vectorised).
 4. Re-optimise each sample exactly (certified relative gap ≤ ``rel_gap``): the samples
    are cut into chunks of a fixed size (independent of the number of workers); each
-   chunk goes to a worker, which builds its models once (:class:`SampleSolver`) and
-   re-solves them for every sample of the chunk.  A sample the fast route cannot
-   certify is solved by :func:`planner.solve.solve_mix`.  Each sample's answer depends
-   only on that sample, so results are identical for a seed whatever the cluster.
+   chunk goes to a worker, which builds the scenario's engine once
+   (:class:`planner.engine.Engine`, its scales fixed by the base data) and re-solves it
+   with each sample's numbers, the plan's slate as the first incumbent and no other
+   warm start, so each sample's answer depends only on that sample: results are
+   identical for a seed whatever the cluster.
 
 Profits include the plant-wide fixed cost (currency per period), as ``Plan.profit``.
 """
@@ -16,7 +17,6 @@ Profits include the plant-wide fixed cost (currency per period), as ``Plan.profi
 from __future__ import annotations
 
 import os
-import threading
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -30,9 +30,8 @@ from planner.errors import InfeasibleError, PlannerError, SolverError
 from planner.output.plan import Plan
 from planner.scenario.arrays import mix_data
 from planner.scenario.schema import Scenario
-from planner.engine.solve import DEFAULT_GAP, check_commitments, solve_mix
-from planner.analysis.risk.evaluate import evaluate_plan, sample_arrays, sample_data
-from planner.analysis.risk.fastmix import SampleSolver
+from planner.engine import DEFAULT_GAP, Engine
+from planner.analysis.risk.evaluate import evaluate_plan, sample_arrays
 from planner.analysis.risk.sampling import draw_samples
 
 #: Samples per chunk sent to a worker (fixed, so chunking never depends on the cluster).
@@ -40,8 +39,6 @@ CHUNK = 25
 #: How long to try reaching a --scheduler address.
 CONNECT_TIMEOUT = "10s"
 STATUS = ("optimal", "infeasible", "failed")
-#: Pyomo redirects output streams while it solves: one fallback solve at a time per process.
-_PYOMO = threading.Lock()
 
 
 class ClusterError(PlannerError):
@@ -50,42 +47,34 @@ class ClusterError(PlannerError):
 
 def solve_chunk(base: MixData, start: np.ndarray, points: np.ndarray, rel_gap: float,
                 arrays: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
-    """Re-optimise the samples of one chunk (runs on a worker); profit excludes the plant-wide cost."""
+    """Re-optimise the samples of one chunk (runs on a worker); profit excludes the plant-wide cost.
+
+    ``start``: the plan's slate, solved first in every sample; ``points``: the plan's volumes
+    (kept for the call's shape; the engine needs no cut points from outside).
+    """
     n_s = len(arrays["a"])
-    solver = SampleSolver(base, rel_gap=rel_gap, extra_points=points)
+    engine = Engine(base)
     out = {"objective": np.full(n_s, np.nan), "bound": np.full(n_s, np.nan),
            "status": np.zeros(n_s, dtype=np.int8), "running": np.zeros((n_s, base.n), dtype=bool),
            "volume": np.zeros((n_s, base.n)), "duals": np.full((n_s, len(base.resources)), np.nan),
            "fallback": np.zeros(n_s, dtype=bool)}
     for s in range(n_s):
-        d = sample_data(base, arrays["a"][s], arrays["b"][s], arrays["v"][s], arrays["H"][s])
         try:
-            check_commitments(d)
+            sol = engine.solve(rel_gap=rel_gap, known=[start], a=arrays["a"][s], b=arrays["b"][s],
+                               v=arrays["v"][s], capacity=arrays["H"][s])
         except InfeasibleError:
             out["status"][s] = 1
             continue
-        sol = solver.solve(d, start=start)
-        if sol is None:
-            out["fallback"][s] = True
-            try:
-                with _PYOMO:
-                    core = solve_mix(d, rel_gap=rel_gap)
-            except InfeasibleError:
-                out["status"][s] = 1
-                continue
-            except SolverError:
-                out["status"][s] = 2
-                continue
-            if core.status != "optimal" or core.gap > rel_gap:
-                out["status"][s] = 2  # not certified: left out rather than reported as optimal
-                continue
-            obj, bnd, vol, duals, slate = core.objective, core.bound, core.volume, core.duals, core.running
-        else:
-            obj, bnd, vol, duals, slate = sol.objective, sol.bound, sol.volume, sol.duals, sol.running
-        vol = np.where(np.abs(vol) <= 1e-9 * np.maximum(d.upper, 1.0), 0.0, vol)
-        out["objective"][s], out["bound"][s] = obj, bnd
-        out["running"][s] = np.where(d.can_stop, slate, d.must_run | (vol > 0))
-        out["volume"][s], out["duals"][s] = vol, duals
+        except SolverError:
+            out["status"][s] = 2
+            continue
+        if sol.status != "optimal" or sol.gap > rel_gap:
+            out["status"][s] = 2  # not certified: left out rather than reported as optimal
+            continue
+        d = engine.data(a=arrays["a"][s], b=arrays["b"][s], v=arrays["v"][s], capacity=arrays["H"][s])
+        out["objective"][s], out["bound"][s] = sol.objective, sol.bound
+        out["running"][s] = np.where(d.can_stop, sol.running, d.must_run | (sol.volume > 0))
+        out["volume"][s], out["duals"][s] = sol.volume, sol.duals
     return out
 
 

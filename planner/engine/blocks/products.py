@@ -1,0 +1,196 @@
+r"""Products as blocks: one block per product, each with its own closed-form best response.
+
+Product i (volume D_i, units) earns the concave contribution
+g_i(D) = (a_i − v_i)·D − b_i·D² and, if it runs (y_i = 1), pays F_i; it uses
+h_ri per unit of each shared row r.  Its feasible set is
+max(L_i, M_i)·y_i ≤ D_i ≤ U_i·y_i, with y_i ≡ 1 where it has no real on/off
+choice (it must run, or nothing is saved by stopping: ``MixData.can_stop``).
+
+At multipliers λ its priced problem has a closed form: with
+c_i = a_i − v_i − (Hᵀλ)_i, the running volume is clip(c_i / (2 b_i), floor, U)
+(a fixed-price product goes to a bound), and it runs if that beats stopping.
+
+In the continuous QP a running product is a column with profit c·D − b·D²
+over floor ≤ D ≤ ``MixData.qp_upper`` (a bound that never competes with a
+capacity row for its dual); a stopped one is left out (volume 0).  In the
+outer-approximation MILP it has columns D_i, t_i (the contribution estimate)
+and y_i, the links D ≤ U·y and D ≥ floor·y, and the perspective tangent cuts
+
+.. math::  t_i \le (c_i - 2 b_i \bar D)\, D_i + b_i \bar D^2\, y_i
+
+at chosen points D̄, valid for y = 0 and y = 1 alike (Frangioni & Gentile
+2006, Math. Programming 106).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from models.data import MixData, peak_contribution
+from planner.engine.blocks.base import Blocks, Columns, MilpBuilder, Response
+from planner.engine.settings import CUT_VIOLATION
+from planner.engine.highs import INF
+
+
+def best_response(c: np.ndarray, b: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Volume maximising c·D − b·D² over lo ≤ D ≤ hi, per product (units; c in currency/unit).
+
+    c/(2b) clipped to the bounds where b > 0; for a fixed price, hi if c > 0 else lo.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(b > 0, np.clip(c / (2 * np.where(b > 0, b, 1.0)), lo, hi), np.where(c > 0, hi, lo))
+
+
+def priced_usage(d: MixData, lam: np.ndarray) -> np.ndarray:
+    """(Hᵀλ)_i: the cost of product i's use of the shared rows at prices λ (currency per unit)."""
+    if not len(d.resources) or not d.use_amt.size:
+        return np.zeros(d.n)
+    return np.bincount(d.use_prod, weights=d.use_amt * lam[d.use_res], minlength=d.n)
+
+
+class ProductBlocks(Blocks):
+    """Every product of ``d`` as a block; its choices are the products with a real on/off choice."""
+
+    name = "products"
+
+    def __init__(self, d: MixData) -> None:
+        self.d = d
+        self.free = np.flatnonzero(d.can_stop)  # product of each choice
+        self.floor = d.run_floor
+        self.reachable = self.floor <= d.upper * (1 + 1e-12) + 1e-12
+        self.hi = np.maximum(d.upper, self.floor)
+
+    @property
+    def n_choices(self) -> int:
+        return int(self.free.size)
+
+    @property
+    def n_vars(self) -> int:
+        return self.d.n
+
+    def running(self, choice: np.ndarray) -> np.ndarray:
+        """(n,) bool: the products that run under ``choice`` (those without a choice always do)."""
+        on = ~self.d.can_stop
+        on[self.free] = np.asarray(choice, dtype=bool)
+        return on
+
+    def choice_of(self, running: np.ndarray) -> np.ndarray:
+        """The choice vector of a (n,) running mask."""
+        return np.asarray(running, dtype=bool)[self.free]
+
+    def respond(self, lam: np.ndarray) -> Response:
+        d = self.d
+        c = d.margin - priced_usage(d, lam)
+        D = best_response(c, d.b, self.floor, self.hi)
+        run_value = c * D - d.b * D * D - d.F
+        on = np.where(self.reachable, run_value, -np.inf)[self.free]
+        off = np.zeros(self.free.size)
+        run = np.ones(d.n, dtype=bool)
+        run[self.free] = on > off
+        always = ~d.can_stop
+        fixed = float(np.sum(run_value[always]))
+        D = np.where(run, D, 0.0)
+        value = fixed + float(np.sum(np.maximum(on, off)))
+        return Response(value, d.used(D), run[self.free], on, off, fixed, D)
+
+    def continuous(self, choice: np.ndarray) -> Columns:
+        d = self.d
+        run = self.running(choice)
+        cols = np.flatnonzero(run)
+        pos = np.full(d.n, -1, dtype=np.int64)
+        pos[cols] = np.arange(cols.size)
+        keep = (pos[d.use_prod] >= 0) & (d.use_amt != 0)
+        return Columns(c=d.margin[cols], q=d.b[cols], lo=self.floor[cols], hi=d.qp_upper[cols],
+                       rows=d.use_res[keep], cols=pos[d.use_prod[keep]], amounts=d.use_amt[keep],
+                       constant=-float(np.sum(d.F[run])), index=cols)
+
+    def profit(self, x: np.ndarray, choice: np.ndarray) -> float:
+        run = self.running(choice)
+        return float(np.sum(self.d.contribution(np.where(run, x, 0.0))) - np.sum(self.d.F[run]))
+
+    def feasible(self, choice: np.ndarray) -> bool:
+        return bool(np.all(self.reachable[self.running(choice)]))
+
+    # --- the outer-approximation MILP -------------------------------------------------
+    def add_to_milp(self, milp: MilpBuilder) -> None:
+        d, n, free = self.d, self.d.n, self.free
+        lo_D = np.where(d.can_stop, 0.0, self.floor)
+        self.Dcol = milp.columns(np.zeros(n), lo_D, d.upper)
+        top_t = np.maximum(peak_contribution(d), 0.0) + 1.0
+        self.tcol = milp.columns(np.ones(n), np.full(n, -INF), top_t)
+        self.ycol = np.full(n, -1, dtype=np.int64)
+        self.ycol[free] = milp.columns(-d.F[free], np.zeros(free.size), np.ones(free.size), integer=True)
+        milp.offset -= float(np.sum(d.F[~d.can_stop]))
+        keep = d.use_amt != 0
+        milp.use(d.use_res[keep], self.Dcol[d.use_prod[keep]], d.use_amt[keep])
+        k = free.size
+        # D_i − U_i y_i ≤ 0
+        milp.rows(k, np.r_[np.arange(k), np.arange(k)], np.r_[self.Dcol[free], self.ycol[free]],
+                  np.r_[np.ones(k), -d.upper[free]], np.full(k, -INF), np.zeros(k))
+        # D_i − floor_i y_i ≥ 0 where the floor is positive
+        g = free[self.floor[free] > 0]
+        milp.rows(g.size, np.r_[np.arange(g.size), np.arange(g.size)], np.r_[self.Dcol[g], self.ycol[g]],
+                  np.r_[np.ones(g.size), -self.floor[g]], np.zeros(g.size), np.full(g.size, INF))
+        self.scale = np.maximum(np.abs(d.margin) * np.where(np.isfinite(d.upper), d.upper, 1.0), 1.0)
+        self.ncuts = 0
+        self._add_cuts(milp, *self.initial_points())
+
+    def initial_points(self) -> tuple[np.ndarray, np.ndarray]:
+        """Cut points per product: its standalone peak, half its bound and its bound."""
+        d = self.d
+        U = d.upper
+        with np.errstate(divide="ignore", invalid="ignore"):
+            peak = np.where(d.b > 0, d.margin / (2 * np.where(d.b > 0, d.b, 1.0)), U)
+        peak = np.clip(peak, 0.0, U)
+        curved = np.flatnonzero(d.b > 0)
+        return np.concatenate([np.arange(d.n), curved, curved]), np.concatenate([peak, 0.5 * U[curved], U[curved]])
+
+    def _add_cuts(self, milp: MilpBuilder, products: np.ndarray, points: np.ndarray) -> int:
+        """Tangent cuts t_k − (c_k − 2 b_k D̄) D_k − b_k D̄² y_k ≤ 0 (y_k ≡ 1: on the right-hand side)."""
+        d = self.d
+        k = np.asarray(products, dtype=np.int64)
+        pt = np.asarray(points, dtype=float)
+        if k.size == 0:
+            return 0
+        slope = d.margin[k] - 2.0 * d.b[k] * pt
+        height = d.b[k] * pt * pt
+        has_y = self.ycol[k] >= 0
+        r = np.arange(k.size)
+        ry = r[has_y]
+        row_of = np.r_[r, r, ry]
+        cols = np.r_[self.tcol[k], self.Dcol[k], self.ycol[k[has_y]]]
+        vals = np.r_[np.ones(k.size), -slope, -height[has_y]]
+        milp.rows(k.size, row_of, cols, vals, np.full(k.size, -INF), np.where(has_y, 0.0, height))
+        self.ncuts += int(k.size)
+        return int(k.size)
+
+    def cuts(self, milp: MilpBuilder, x: np.ndarray) -> int:
+        vol, t = x[self.Dcol], x[self.tcol]
+        over = t - self.d.contribution(vol) > CUT_VIOLATION * self.scale
+        return self._add_cuts(milp, np.flatnonzero(over), vol[over])
+
+    def cuts_at(self, milp: MilpBuilder, values: np.ndarray, choice: np.ndarray) -> int:
+        d = self.d
+        run = self.running(choice)
+        x = np.asarray(values, dtype=float)
+        # (a flat tangent at a product's peak is already among the first cuts)
+        at = np.flatnonzero(run & (d.b > 0) & (x > 0) & (np.abs(d.margin - 2 * d.b * x) > 1e-9 * np.abs(d.margin)))
+        return self._add_cuts(milp, at, x[at])
+
+    def milp_choice(self, milp: MilpBuilder, x: np.ndarray) -> np.ndarray:
+        return x[self.ycol[self.free]] > 0.5
+
+    def milp_volumes(self, x: np.ndarray) -> np.ndarray:
+        """The volumes D of a MILP solution (units)."""
+        return x[self.Dcol]
+
+    def milp_start(self, milp: MilpBuilder, values: np.ndarray, choice: np.ndarray) -> dict[int, float]:
+        run = self.running(choice)
+        D = np.where(run, values, 0.0)
+        out = dict(zip(self.Dcol.tolist(), D.tolist()))
+        out.update(zip(self.tcol.tolist(), self.d.contribution(D).tolist()))
+        out.update(zip(self.ycol[self.free].tolist(), np.asarray(choice, dtype=float).tolist()))
+        return out
+
+    def milp_fix(self, milp: MilpBuilder, which: np.ndarray, on: np.ndarray) -> None:
+        milp.fix(self.ycol[self.free[np.asarray(which, dtype=np.int64)]], np.asarray(on, dtype=float))

@@ -1,0 +1,48 @@
+"""Checks of every solved plan in the scenario's own units, before anything reports it.
+
+A plan that breaks a limit by more than ``LIMIT_TOL`` (relative to
+max(|limit|, 1)) is an error, never a plan: a capacity, a market cap, a
+commitment or minimum run, a volume on a stopped product, an option's scale
+outside 0..1.  Volumes below ``ZERO_VOLUME`` of their bound are solver noise
+and are reported as 0.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from models.data import MixData
+from planner.engine.settings import LIMIT_TOL, ZERO_VOLUME
+from planner.errors import SolverError
+
+
+def clean_volumes(volume: np.ndarray, d: MixData) -> np.ndarray:
+    """Volumes with solver noise below ``ZERO_VOLUME`` of each bound set to 0 (units)."""
+    v = np.asarray(volume, dtype=float).copy()
+    v[np.abs(v) <= ZERO_VOLUME * np.maximum(np.where(np.isfinite(d.upper), d.upper, 1.0), 1.0)] = 0.0
+    return v
+
+
+def check_plan(d: MixData, volume: np.ndarray, running: np.ndarray, option_scale: np.ndarray | None = None,
+               rel_tol: float = LIMIT_TOL) -> None:
+    """Raise SolverError naming every limit the solved plan breaks beyond ``rel_tol``."""
+    scale = np.zeros(d.n_options) if option_scale is None or not np.size(option_scale) else np.asarray(option_scale)
+    cap = d.capacity + scale @ d.opt_amount if d.n_options else d.capacity
+    used = d.used(np.asarray(volume, dtype=float))
+    for r in np.flatnonzero(used > cap + rel_tol * np.maximum(np.abs(cap), 1.0)):
+        raise SolverError(f"the solved plan uses {used[r]:.9g} of {d.resources[r]} but it has {cap[r]:.9g}: "
+                          "the solver's answer breaks a limit, so no plan is reported (try --solver scip)")
+    runs = np.asarray(running, dtype=bool) | ~d.can_stop
+    floor = np.where(runs, np.where(d.must_run | d.can_stop, d.run_floor, 0.0), 0.0)
+    bad = []
+    for k in np.flatnonzero(volume > d.cap * (1 + rel_tol) + rel_tol):
+        bad.append(f"{d.products[k]} at {volume[k]:.9g} is above its max_volume {d.cap[k]:.9g}")
+    for k in np.flatnonzero(volume < floor * (1 - rel_tol) - rel_tol):
+        bad.append(f"{d.products[k]} at {volume[k]:.9g} is below its floor {floor[k]:.9g}")
+    for k in np.flatnonzero(~runs & (volume > 0)):
+        bad.append(f"{d.products[k]} is shut down but has volume {volume[k]:.9g}")
+    if np.any(scale < -rel_tol) or np.any(scale > 1 + rel_tol):
+        bad.append("an option's scale is outside 0..1")
+    if bad:
+        raise SolverError("the solved plan breaks a limit, so no plan is reported (try --solver scip): "
+                          + "; ".join(bad))
