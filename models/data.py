@@ -69,8 +69,9 @@ class MixData:
             object.__setattr__(self, "opt_cost", np.zeros(k))
         if self.opt_whole is None:
             object.__setattr__(self, "opt_whole", np.ones(k, dtype=bool))
-        object.__setattr__(self, "upper", tight_upper(self))
-        object.__setattr__(self, "qp_upper", np.minimum(self.cap, peak_bound(self)))
+        peak = peak_bound(self)
+        object.__setattr__(self, "upper", tight_upper(self, peak))
+        object.__setattr__(self, "qp_upper", np.minimum(self.cap, peak))
         stop = ~self.must_run & ((self.F > 0) | (self.min_run > 0))
         object.__setattr__(self, "can_stop", stop)
 
@@ -163,7 +164,7 @@ def committed_floor(d: MixData) -> np.ndarray:
     return np.where(d.must_run, np.maximum(d.committed, d.min_run), 0.0)
 
 
-def tight_upper(d: MixData) -> np.ndarray:
+def tight_upper(d: MixData, peak: np.ndarray | None = None) -> np.ndarray:
     """Upper bound U_i on each volume that no optimal plan exceeds (units).
 
     U_i = min( C_i,
@@ -186,7 +187,7 @@ def tight_upper(d: MixData) -> np.ndarray:
     res_bound = np.full(n, np.inf)
     np.minimum.at(res_bound, i, room)
     upper = np.minimum(upper, res_bound)
-    upper = np.minimum(upper, peak_bound(d))
+    upper = np.minimum(upper, peak_bound(d) if peak is None else peak)
     return np.maximum(upper, 0.0)
 
 

@@ -71,9 +71,9 @@ def solve_chunk(base: MixData, start: np.ndarray, points: np.ndarray, rel_gap: f
         if sol.status != "optimal" or sol.gap > rel_gap:
             out["status"][s] = 2  # not certified: left out rather than reported as optimal
             continue
-        d = engine.data(a=arrays["a"][s], b=arrays["b"][s], v=arrays["v"][s], capacity=arrays["H"][s])
         out["objective"][s], out["bound"][s] = sol.objective, sol.bound
-        out["running"][s] = np.where(d.can_stop, sol.running, d.must_run | (sol.volume > 0))
+        # (which products have an on/off choice does not depend on the sampled numbers)
+        out["running"][s] = np.where(base.can_stop, sol.running, base.must_run | (sol.volume > 0))
         out["volume"][s], out["duals"][s] = sol.volume, sol.duals
     return out
 
