@@ -20,7 +20,9 @@ def synthetic_scenario(n_products: int, n_resources: int, seed: int = 0, fixed_c
     """A raw scenario dict (as read from YAML) with the given size.
 
     fixed_costs: "none", "some" (about half the products, 20–90 % of their best
-    contribution) or "near" (every product, 70–110 %: hard for bounds).
+    contribution), "near" (every product, 70–110 %: hard for bounds), "hard"
+    (every product, 80–105 %: a product-range review) or "mixed" (every product,
+    5–120 %).
     price_slope: "all" (every product has a falling line), "none" (fixed prices,
     with max_volume caps) or "mixed".
     tightness: capacity as a fraction of the standalone optima's use (0..1].
@@ -42,6 +44,10 @@ def synthetic_scenario(n_products: int, n_resources: int, seed: int = 0, fixed_c
         F = np.zeros(n)
     elif fixed_costs == "near":
         F = best * rng.uniform(0.7, 1.1, n)
+    elif fixed_costs == "hard":
+        F = best * rng.uniform(0.8, 1.05, n)
+    elif fixed_costs == "mixed":
+        F = best * rng.uniform(0.05, 1.2, n)
     else:
         F = np.where(rng.random(n) < 0.5, best * rng.uniform(0.2, 0.9, n), 0.0)
     per = max(1, int(round(density * m)))
