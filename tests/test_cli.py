@@ -89,3 +89,74 @@ def test_solver_option_hands_miqp_to_scip(tmp_path):
     ours = json.loads((lambda: (run("plan", CASES / "small_mix.yaml", "--json", tmp_path / "q.json", "--gap", "1e-9", "-q"),
                                 (tmp_path / "q.json").read_text())[1])())
     assert data["profit"] == pytest.approx(ours["profit"], rel=1e-6)
+
+
+def _flat(text: str) -> str:
+    return " ".join(text.split())
+
+
+def test_choose_options_prints_the_chosen_plan(demo_path, tmp_path):
+    """It printed one summary line.  Now: the options picked, then the products and resources with their
+    capacity added.  Outside check (the scenario file): the Saturday shift adds 624 h to the finishing
+    booth's 3,900 h, so the chosen plan's booth has 3,900 + 624 = 4,524 h; its profit less the shift's
+    £21,000 is the pick's profit in the JSON, to the gap."""
+    import pytest
+
+    out = tmp_path / "p.json"
+    res = run("plan", demo_path, "--choose-options", "--json", out)
+    assert res.exit_code == 0, res.output
+    text = _flat(res.output)
+    pick = json.loads(out.read_text())["option_pick"]
+    assert [x["name"] for x in pick["picked"]] == ["Saturday shift in finishing"]
+    assert "Options chosen together" in text
+    assert "Saturday shift in finishing 100% finishing booth +624.0 h €21,000" in text
+    assert "Products, with the options" in text and "Resources, with the options' capacity added" in text
+    chosen = text.split("Resources, with the options' capacity added")[1]
+    assert "finishing booth ◆ 4,524 h 4,524 h 100%" in chosen
+    before = text.split("The plan with the options chosen together (their capacity added): profit ")[1].split()[0]
+    profit_before_cost = float(before.replace("€", "").replace(",", ""))
+    assert profit_before_cost - 21000 == pytest.approx(pick["profit"], rel=1e-4, abs=1)
+    assert pick["profit_before_cost"] == pytest.approx(profit_before_cost, rel=1e-4, abs=1)
+
+
+def test_run_labels_say_why_a_product_runs(tmp_path):
+    """Products forced only by min_volume were labelled 'must' like must_run ones."""
+    raw = {"name": "labels", "products": [
+        {"name": "kept", "price_intercept": 100, "price_slope": 0.5, "unit_cost": 40, "min_volume": 10,
+         "fixed_cost": 100, "usage": {"press": 1}},
+        {"name": "forced", "price_intercept": 100, "price_slope": 0.5, "unit_cost": 40, "must_run": True,
+         "fixed_cost": 100, "usage": {"press": 1}},
+        {"name": "loser", "price_intercept": 50, "price_slope": 0.5, "unit_cost": 45, "fixed_cost": 5000,
+         "usage": {"press": 1}}],
+        "resources": [{"name": "press", "capacity": 1000, "unit": "h"}]}
+    f = tmp_path / "labels.yaml"
+    f.write_text(yaml.safe_dump(raw))
+    res = run("plan", f, "--no-standalone")
+    assert res.exit_code == 0, res.output
+    rows = {line.split()[0]: line.split() for line in res.output.splitlines() if line.split()[:1] in
+            (["kept"], ["forced"], ["loser"])}
+    assert rows["kept"][1] == "committed" and rows["forced"][1] == "must" and rows["loser"][1] == "off"
+    text = _flat(res.output)
+    assert "must: must_run, may not be shut down; committed: its min_volume makes it run" in text
+
+
+def test_shut_down_products_show_no_price(demo_plan, demo_path):
+    """One rule for every output: no sale, no price (the terminal and the report page show '—'; the
+    JSON's and the workbook's values are the other owners' to change, see the price rule in
+    planner.output.terminal.sold_price)."""
+    from rich.console import Console
+
+    from planner.output.terminal import products_table, sold_price
+
+    off = [x for x in demo_plan.products if x.volume == 0]
+    assert off, "the demo shuts a product down"
+    assert all(sold_price(x) is None for x in off)
+    assert all(sold_price(x) == x.price for x in demo_plan.products if x.volume > 0)
+    con = Console(width=200, record=True)
+    con.print(products_table(demo_plan, con))
+    lines = con.export_text().splitlines()
+    for x in off:
+        row = next(line for line in lines if line.startswith(x.name + " "))
+        assert row.split()[len(x.name.split()) + 2] == "—", row
+    res = run("plan", demo_path, "--no-capacity")
+    assert "price —: nothing sold, so no price" in _flat(res.output)

@@ -125,3 +125,44 @@ def test_fit_demand_reports_products_it_cannot_fit(tmp_path):
             "about how volume answers price") in text
     res = run("fit-demand", h, "--product", "B")
     assert res.exit_code == 2 and "every observed price is 5" in res.output
+
+
+def _wrong_history(tmp_path, noisy: bool):
+    """Volumes rising with price: noisy (β's interval reaches past 0) or clearly (it does not)."""
+    prices = list(range(10, 20))
+    extra = [0, -10, 20, -12, 20, 0, 20, -15, 15, -10] if noisy else [0, 1, -1, 0, 1, -1, 0, 1, -1, 0]
+    volumes = [100 + 3 * p + e for p, e in zip(prices, extra)]
+    h = tmp_path / ("noisy.csv" if noisy else "clear.csv")
+    h.write_text("product,price,volume\n" + "".join(f"W,{p},{v}\n" for p, v in zip(prices, volumes)))
+    return h, prices, volumes
+
+
+@pytest.mark.parametrize("noisy", [True, False])
+def test_fit_demand_wrong_sign_interval_contains_the_estimate(tmp_path, noisy):
+    """A wrong-signed history printed the slope interval '0.1249–∞', which does not hold the (negative)
+    estimate.  Outside reference: scipy.stats.linregress of volume on price (β and its standard error)
+    and scipy's t quantile; b = −1/β, so β's interval [β − t·se, β + t·se] maps to b's confidence set,
+    two rays when it reaches past 0 (the one holding the estimate is (−∞, −1/(β + t·se)]), else the
+    interval [−1/(β − t·se), −1/(β + t·se)]."""
+    scipy_stats = pytest.importorskip("scipy.stats")
+    h, prices, volumes = _wrong_history(tmp_path, noisy)
+    ref = scipy_stats.linregress(prices, volumes)
+    t = scipy_stats.t.ppf(0.975, len(prices) - 2)
+    lo_beta, hi_beta = ref.slope - t * ref.stderr, ref.slope + t * ref.stderr
+    assert ref.slope > 0 and (lo_beta < 0) == noisy  # the two cases are the two shapes
+    out = tmp_path / "fit.json"
+    res = run("fit-demand", h, "--json", out)
+    assert res.exit_code == 0, res.output
+    line = json.loads(out.read_text())["products"][0]
+    b = line["slope"]
+    assert b == pytest.approx(-1 / ref.slope, rel=1e-10)
+    lo, hi = line["slope_ci"]
+    assert hi == pytest.approx(-1 / hi_beta, rel=1e-10)
+    if noisy:
+        assert lo is None
+    else:
+        assert lo == pytest.approx(-1 / lo_beta, rel=1e-10)
+    assert (lo is None or lo <= b) and b <= hi < 0
+    text = " ".join(res.output.split())
+    assert "wrong sign" in text.split("warning:")[0]  # in the table, under the interval
+    assert (f"-∞ to {hi:,.4g}" if noisy else f"{lo:,.4g} to {hi:,.4g}") in text

@@ -240,7 +240,7 @@ def test_cli_risk_unreachable_scheduler_is_a_clear_error(tmp_path, monkeypatch):
     path = tmp_path / "small.yaml"
     path.write_text(yaml.safe_dump(small_uncertain()))
     res = CliRunner().invoke(main, ["risk", str(path), "--samples", "5", "--scheduler", "tcp://127.0.0.1:9"])
-    assert res.exit_code == 4
+    assert res.exit_code == 2  # bad input: the address is what to fix (exit 4 before issue 17)
     assert "cannot reach the Dask scheduler at tcp://127.0.0.1:9" in res.output
 
 

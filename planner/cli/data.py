@@ -46,20 +46,39 @@ def _g(v: float | None) -> str:
 
 
 def _interval(ci: tuple[float | None, float | None]) -> str:
-    """'lo–hi'; '—' where the interval is undefined (fewer than 3 points); ∞ for an open end."""
-    return "—" if ci == (None, None) else f"{_g(ci[0])}–{_g(ci[1])}"
+    """'lo–hi'; '—' where the interval is undefined (fewer than 3 points); ∞ for an open end.
+
+    An interval with a negative or open lower end is written 'lo to hi' ('-∞ to -4.1'), since a dash
+    between negative numbers misreads.
+    """
+    lo, hi = ci
+    if lo is None and hi is None:
+        return "—"
+    if lo is None or lo < 0:
+        return f"{'-∞' if lo is None else _g(lo)} to {_g(hi)}"
+    return f"{_g(lo)}–{_g(hi)}"
+
+
+def wrong_sign(f) -> bool:
+    """A fitted line whose volume rises with price (the condition of fit.fit_warnings' 'wrong sign')."""
+    return f.slope is None or f.slope < 0 or f.dq_dp >= 0
 
 
 def fit_table(lines, level: float = 0.95) -> Table:
-    """The fits as a terminal table: line with intervals, R², n, observed price range, elasticity."""
+    """The fits as a terminal table: line with intervals, R², n, observed price range, elasticity.
+
+    A wrong-signed slope says so under its interval (the interval holds the estimate, so it is
+    negative too): such a line cannot be used in a scenario.
+    """
     pct = f"{100 * level:g}%"
     t = table("Price–demand lines fitted: price = intercept − slope × volume")
     for col in ("product", f"intercept\n{pct} CI", f"slope\n{pct} CI", "R²", "n", "prices\nseen", "ε at\nmean"):
         t.add_column(col, justify="left" if col == "product" else "right", no_wrap=col != "product",
                      min_width=8 if col == "product" else None)
     for f in lines:
+        slope = f"{_g(f.slope)}\n{_interval(f.slope_ci)}" + ("\n[red]wrong sign[/]" if wrong_sign(f) else "")
         t.add_row(escape(f.product), f"{_g(f.intercept)}\n{_interval(f.intercept_ci)}",
-                  f"{_g(f.slope)}\n{_interval(f.slope_ci)}", f"{f.r2:.3f}", str(f.n),
+                  slope, f"{f.r2:.3f}", str(f.n),
                   f"{_g(f.price_min)}–{_g(f.price_max)}",
                   "—" if f.elasticity_at_mean is None else f"{f.elasticity_at_mean:.3g}")
     return t
@@ -100,7 +119,7 @@ def _into(scenario: Path, out: Path, lines, history: Path, force: bool) -> list[
 
 def register(main: click.Group) -> None:
     """Add the data commands to the CLI."""
-    from planner.cli.main import console, friendly
+    from planner.cli.main import FiniteFloat, console, friendly
 
     @main.command("template")
     @click.argument("path", type=click.Path(path_type=Path))
@@ -146,8 +165,9 @@ def register(main: click.Group) -> None:
     @click.option("--product", "products", multiple=True, metavar="NAME", help="Fit only this product (repeatable).")
     @click.option("--regress", type=click.Choice(["volume-on-price", "price-on-volume"]), default="volume-on-price",
                   show_default=True, help="Which way the least squares runs (see planner.fit).")
-    @click.option("--level", type=click.FloatRange(0.5, 0.999), default=0.95, show_default=True,
-                  help="Confidence level of the intervals.")
+    @click.option("--level", type=FiniteFloat(0.5, 0.999, why="a confidence level below 0.5 is no confidence, "
+                                                          "and 1 would make every interval infinite"),
+                  default=0.95, show_default=True, help="Confidence level of the intervals, from 0.5 to 0.999.")
     @click.option("--into", "scenario", type=click.Path(path_type=Path), default=None, metavar="SCENARIO",
                   help="Also write SCENARIO with the fitted lines and their uncertainty filled in ...")
     @click.option("--out", type=click.Path(path_type=Path), default=None, metavar="PATH",

@@ -1,14 +1,21 @@
 """The command line: a thin layer over the Python API.
 
-Exit codes: 0 plan made, 2 bad input, 3 infeasible scenario, 4 solver trouble.
-Other commands register themselves on ``main`` from their own modules (see
-``COMMAND_MODULES``), so this file stays small.
+Exit codes: 0 plan made, 2 bad input (a scenario, a file or an option: the
+message says where and how to fix it), 3 infeasible scenario, 4 solver
+trouble, 5 internal error (a bug: rerun with --debug and report it), 130
+interrupted.  Other commands register themselves on ``main`` from their own
+modules (see ``COMMAND_MODULES``), so this file stays small.
+
+Every numeric option is a :class:`FiniteFloat` (or :class:`WholeNumber`): NaN
+and infinity are refused in every spelling, and the range is stated in the
+message and in ``--help``.
 """
 
 from __future__ import annotations
 
 import functools
 import importlib
+import math
 import sys
 from pathlib import Path
 
@@ -23,6 +30,15 @@ err_console = Console(stderr=True)
 
 #: Largest scenario (products) for which `plan` adds the capacity analysis unless told otherwise.
 CAPACITY_AUTO_MAX = 100
+
+#: Longest --time-limit, in seconds (about 11.6 days): longer is no limit at all; leave the option out instead.
+TIME_LIMIT_MAX = 1e6
+#: Loosest --gap of a plan: the plan is still called optimal at this gap, so a looser one would promise too little.
+GAP_MAX = 0.1
+GAP_WHY = ("a plan within this gap is called optimal, so a looser one would promise too little; for a quick "
+           "rough plan use --time-limit, which reports the gap it reached")
+#: Largest capacity a --from / --to may name (the scenario's own limit on any number, schema.MAX_MAGNITUDE).
+CAPACITY_MAX = 1e15
 
 #: Modules that add commands to ``main`` when imported (each has ``register(main)``).
 COMMAND_MODULES: list[str] = ["planner.cli.data", "planner.cli.report", "planner.cli.risk", "planner.cli.sweep"]
@@ -48,14 +64,131 @@ def friendly(func):
     return wrapper
 
 
+def plain_number(x: float) -> str:
+    """A range end as people write it: 0.1, 1e-12, 1,000,000."""
+    return f"{int(x):,}" if float(x).is_integer() and abs(x) < 1e15 else f"{x:g}".replace("e+", "e")
+
+
+class FiniteFloat(click.FloatRange):
+    """A number option that must be finite and inside a range; the message says which range, and why.
+
+    NaN and infinity are refused in every spelling Python's ``float`` reads ('nan', 'NaN', '-nan',
+    'inf', '-inf', '+Infinity', and overflowing ones such as '1e999'), as is text that is no number.
+    ``min``/``max`` are the range ends (None: open-ended), ``min_open``/``max_open`` exclude them;
+    ``why`` is one clause saying why the range is what it is.  ``--help`` shows the range
+    (click's ``[0<=x<=0.1]``).
+    """
+
+    name = "number"
+    noun = "a number"
+
+    def __init__(self, min: float | None = None, max: float | None = None, min_open: bool = False,
+                 max_open: bool = False, why: str = "") -> None:
+        super().__init__(min=min, max=max, min_open=min_open, max_open=max_open)
+        self.why = why
+
+    def wanted(self) -> str:
+        """'a number from 0 to 0.1', 'a number above 0 and at most 1,000,000', 'a number of 0 or more'."""
+        lo = hi = None
+        if self.min is not None:
+            lo = f"above {plain_number(self.min)}" if self.min_open else plain_number(self.min)
+        if self.max is not None:
+            hi = f"below {plain_number(self.max)}" if self.max_open else plain_number(self.max)
+        if lo is not None and hi is not None:
+            if not self.min_open and not self.max_open:
+                return f"{self.noun} from {lo} to {hi}"
+            return f"{self.noun} {lo if self.min_open else 'of at least ' + lo} and " \
+                   f"{hi if self.max_open else 'at most ' + hi}"
+        if lo is not None:
+            return f"{self.noun} {lo}" if self.min_open else f"{self.noun} of {lo} or more"
+        if hi is not None:
+            return f"{self.noun} {hi}" if self.max_open else f"{self.noun} of {hi} or less"
+        return f"any finite {self.noun.split(' ', 1)[1]}"
+
+    def _describe_range(self) -> str:  # click's range text in --help ('0<=x<=0.1'), numbers written plainly
+        lo = "" if self.min is None else f"{plain_number(self.min)}{'<' if self.min_open else '<='}"
+        hi = "" if self.max is None else f"{'<' if self.max_open else '<='}{plain_number(self.max)}"
+        return f"{lo}x{hi}"
+
+    def _refuse(self, what: str, param, ctx):
+        self.fail(f"{what}; give {self.wanted()}" + (f" ({self.why})" if self.why else ""), param, ctx)
+
+    def parse(self, value, param, ctx) -> float:
+        """The value as a finite float (refusing booleans, text that is no number, NaN and infinity)."""
+        if isinstance(value, bool):
+            self._refuse(f"{value!r} is not a number", param, ctx)
+        if isinstance(value, (int, float)):
+            x, shown = float(value), repr(value)
+        else:
+            shown = repr(str(value))
+            try:
+                x = float(str(value).strip())
+            except ValueError:
+                self._refuse(f"{shown} is not a number", param, ctx)
+        if not math.isfinite(x):
+            self._refuse(f"{shown} is not a finite number (NaN and infinity are refused)", param, ctx)
+        return x
+
+    def in_range(self, x: float) -> bool:
+        lo_ok = self.min is None or (x > self.min if self.min_open else x >= self.min)
+        hi_ok = self.max is None or (x < self.max if self.max_open else x <= self.max)
+        return lo_ok and hi_ok
+
+    def convert(self, value, param, ctx):
+        x = self.parse(value, param, ctx)
+        if not self.in_range(x):
+            self._refuse(f"{plain_number(x)} is out of range", param, ctx)
+        return x
+
+
+class WholeNumber(FiniteFloat):
+    """A whole-number option with a range (counts, seeds): FiniteFloat's checks, and no fractions.
+
+    Accepts whole numbers written as such ('1000') or as a float that is whole ('1e3', '1000.0').
+    """
+
+    name = "integer"
+    noun = "a whole number"
+
+    def convert(self, value, param, ctx):
+        if isinstance(value, int) and not isinstance(value, bool):
+            n = value
+        else:
+            try:
+                n = int(str(value).strip())
+            except ValueError:
+                x = self.parse(value, param, ctx)
+                if not x.is_integer():
+                    self._refuse(f"{value!r} is not a whole number", param, ctx)
+                n = int(x)
+        if not self.in_range(n):
+            self._refuse(f"{n:,} is out of range", param, ctx)
+        return n
+
+
+def gap_option(default: float = 1e-4, what: str = "Certified relative gap at which to stop"):
+    """The --gap option of a command that plans (the same range and reason everywhere)."""
+    return click.option("--gap", "rel_gap", type=FiniteFloat(0, GAP_MAX, why=GAP_WHY), default=default,
+                        show_default=True,
+                        help=f"{what}: (bound − profit) / max(|profit|, 1), from 0 to {GAP_MAX:g} (a plan is "
+                             "called optimal within it, so a looser one would promise too little).")
+
+
+def time_limit_option():
+    """The --time-limit option (seconds, above 0, finite)."""
+    return click.option("--time-limit", type=FiniteFloat(0, TIME_LIMIT_MAX, min_open=True,
+                                                         why="leave the option out for no limit"),
+                        default=None, metavar="SECONDS",
+                        help="Stop with the best plan found and its certified gap (seconds, above 0, at most "
+                             f"{plain_number(TIME_LIMIT_MAX)}; leave it out for no limit).")
+
+
 def solve_options(func):
     """Options shared by every command that solves."""
     func = click.option("--debug", is_flag=True, help="Show the full traceback on errors.")(func)
     func = click.option("--quiet", "-q", is_flag=True, help="Print nothing but errors.")(func)
-    func = click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=None,
-                        metavar="SECONDS", help="Stop with the best plan found and its certified gap.")(func)
-    func = click.option("--gap", "rel_gap", type=click.FloatRange(min=0), default=1e-4, show_default=True,
-                        help="Certified relative gap at which to stop.")(func)
+    func = time_limit_option()(func)
+    func = gap_option()(func)
     func = click.option("--solver", default=None, metavar="NAME",
                         help="Hand the mixed-integer QP to another Pyomo solver (e.g. scip).")(func)
     return func
@@ -111,12 +244,34 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
         from planner.analysis.capacity.analysis import add_capacity_analysis, auto_budget
 
         add_capacity_analysis(p, s, choose=choose_options, budget=auto_budget(p) if automatic else None)
+    chosen = chosen_plan(p, s, rel_gap=rel_gap, time_limit=time_limit, solver=solver) if choose_options else None
     if json_path:
         write_text_atomic(json_path, p.to_json())
     if not quiet:
-        print_plan(p, console, standalone=not no_standalone)
+        print_plan(p, console, standalone=not no_standalone, scenario=s, chosen=chosen)
         if json_path:
             console.print(f"[dim]plan written to {json_path}[/]")
+
+
+def chosen_plan(p, s, **solve):
+    """The Plan with the options of ``p.extras['option_pick']`` taken (their capacity added), or None.
+
+    Planned again at the capacities the joint pick gives (each picked option's share × its amounts),
+    so its tables are a whole Plan; profit before the options' cost.  The plan with no option
+    picked is ``p`` itself.
+    """
+    from planner.api import plan
+
+    pick = p.extras.get("option_pick")
+    if pick is None:
+        return None
+    if not pick["picked"]:
+        return p
+    extra: dict[str, float] = {}
+    for x in pick["picked"]:
+        for r, amount in x["adds"].items():
+            extra[r] = extra.get(r, 0.0) + float(amount)
+    return plan(s, extra_capacity=extra, **solve)
 
 
 @main.command("check")
@@ -139,8 +294,7 @@ def check_cmd(scenario: Path, debug: bool) -> None:
 
 @main.command("demo")
 @click.option("--json", "json_path", type=click.Path(path_type=Path), default=None, help="Write the plan as JSON.")
-@click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=None, metavar="SECONDS",
-              help="Stop with the best plan found and its certified gap.")
+@time_limit_option()
 @friendly
 def demo_cmd(json_path: Path | None, time_limit: float | None) -> None:
     """Plan the shipped demo scenario (a try-it command)."""
@@ -148,12 +302,16 @@ def demo_cmd(json_path: Path | None, time_limit: float | None) -> None:
     from planner.files import write_text_atomic
     from planner.output.terminal import print_plan
 
+    from planner.scenario.loading import load_scenario
+
     path = demo_path()
     console.print(f"[dim]scenario: {path}[/]")
-    p = plan(path, time_limit=time_limit)
+    s, warns = load_scenario(path)
+    p = plan(s, time_limit=time_limit)
+    p.warnings = list(warns) + p.warnings
     if json_path:
         write_text_atomic(json_path, p.to_json())
-    print_plan(p, console)
+    print_plan(p, console, scenario=s)
 
 
 def demo_path() -> Path:

@@ -3,14 +3,89 @@
 from __future__ import annotations
 
 import json
+import re
 from pathlib import Path
 
 import click
 import numpy as np
 from rich.console import Console
+from rich.markup import escape
 
+from planner.errors import EXIT_BAD_INPUT, PlannerError
 from planner.output.text import table
 from planner.analysis.risk.run import STATUS, RiskResult, run_risk
+
+#: Most Monte Carlo samples of one run (every sample is a re-solve; 1,000 give the mean to about 3 % of its sd).
+MAX_SAMPLES = 1_000_000
+#: Largest seed (2**32 − 1, the range numpy's and most tools' seeds share).
+MAX_SEED = 2**32 - 1
+#: Most local worker processes.
+MAX_WORKERS = 256
+#: Address schemes a Dask scheduler listens on that another process can reach.
+SCHEMES = ("tcp", "tls", "ws", "wss", "ucx")
+#: An example of a valid --scheduler address, shown in every message about one.
+ADDRESS_EXAMPLE = "tcp://10.0.0.5:8786"
+_HOST_PORT = re.compile(r"(\[[0-9A-Fa-f:.]+\]|[A-Za-z0-9](?:[A-Za-z0-9._-]*[A-Za-z0-9])?):([0-9]{1,5})")
+
+
+class SchedulerError(PlannerError):
+    """A --scheduler address that is malformed or cannot be reached: bad input, fixed by the address."""
+
+    exit_code = EXIT_BAD_INPUT
+
+
+def address_problem(address: str) -> str | None:
+    """What is wrong with a Dask scheduler address, or None if it has the form SCHEME://HOST:PORT.
+
+    Accepted: tcp, tls, ws, wss or ucx with a host name, IPv4 address or [IPv6] address and a port
+    1..65535; a bare HOST:PORT means tcp:// (as Dask reads it).  inproc:// is refused: it names a
+    scheduler inside one Python process, which this command (its own process) cannot reach.
+    """
+    text = address.strip()
+    if not text:
+        return "is empty"
+    scheme, rest = text.split("://", 1) if "://" in text else ("tcp", text)
+    if scheme.lower() == "inproc":
+        return ("is an inproc:// address, which names a scheduler inside one Python process: this command "
+                "runs in a process of its own and cannot reach it")
+    if scheme.lower() not in SCHEMES:
+        return f"has the scheme '{scheme}://', which no Dask scheduler listens on (use {', '.join(SCHEMES)})"
+    m = _HOST_PORT.fullmatch(rest)
+    if m is None:
+        if rest and ":" not in rest.strip("[]") and "/" not in rest:
+            return "has no port (the scheduler's port is usually 8786)"
+        return "is not of the form HOST:PORT after the scheme"
+    if not 1 <= int(m.group(2)) <= 65535:
+        return f"has port {int(m.group(2))}, outside 1..65535"
+    return None
+
+
+def check_address(ctx, param, value: str | None) -> str | None:
+    """Click callback for --scheduler: refuse a malformed address up front (exit 2, with an example)."""
+    if value is None:
+        return None
+    problem = address_problem(value)
+    if problem:
+        raise click.BadParameter(f"{value!r} {problem}; give the scheduler's address as SCHEME://HOST:PORT, e.g. "
+                                 f"{ADDRESS_EXAMPLE} (the address `dask scheduler` prints; a bare HOST:PORT "
+                                 "means tcp://)", ctx=ctx, param=param)
+    return value.strip()
+
+
+def connect(address: str):
+    """A distributed.Client on ``address``; any failure to reach it is SchedulerError (exit 2) with the fix."""
+    from distributed import Client
+
+    from planner.analysis.risk import run as risk_run
+
+    try:
+        return Client(address, timeout=risk_run.CONNECT_TIMEOUT)
+    except Exception as e:  # unreachable, refused, wrong protocol, missing TLS settings: all fixed by the address
+        reason = str(e) or type(e).__name__
+        raise SchedulerError(f"cannot reach the Dask scheduler at {address}: {reason} (check that a scheduler is "
+                             "running there and that this machine may reach its port — `dask scheduler` prints "
+                             "its address, e.g. " + ADDRESS_EXAMPLE + " — or leave --scheduler out for a local "
+                             "cluster)") from None
 
 console = Console()
 err_console = Console(stderr=True)
@@ -32,23 +107,29 @@ def _command(friendly):
 
 def _options(f):
     """The command's arguments and options."""
+    from planner.cli.main import WholeNumber, gap_option
+
     f = click.option("--debug", is_flag=True, help="Show the full traceback on errors.")(f)
     f = click.option("--quiet", "-q", is_flag=True, help="Print nothing but errors.")(f)
     f = click.option("--no-robust", is_flag=True, help="Leave out the sample-based robust choice of slate.")(f)
-    f = click.option("--gap", "rel_gap", type=click.FloatRange(min=0), default=1e-4, show_default=True,
-                     help="Certified relative gap of every re-optimisation.")(f)
-    f = click.option("--workers", type=click.IntRange(min=0), default=None,
-                     help="Worker processes of the local cluster (default: all cores; 0: no Dask, this process).")(f)
-    f = click.option("--scheduler", default=None, metavar="ADDRESS",
-                     help="Run on an existing Dask cluster (e.g. tcp://10.0.0.5:8786); default a local cluster.")(f)
+    f = gap_option(what="Certified relative gap of every re-optimisation")(f)
+    f = click.option("--workers", type=WholeNumber(0, MAX_WORKERS, why="0 solves in this process without Dask"),
+                     default=None,
+                     help=f"Worker processes of the local cluster, 0 to {MAX_WORKERS} (default: all cores; 0: no "
+                          "Dask, solve in this process).")(f)
+    f = click.option("--scheduler", default=None, metavar="ADDRESS", callback=check_address,
+                     help=f"Run on an existing Dask cluster at SCHEME://HOST:PORT (e.g. {ADDRESS_EXAMPLE}; "
+                          f"scheme {', '.join(SCHEMES)}; a bare HOST:PORT means tcp://); default a local "
+                          "cluster.")(f)
     f = click.option("--charts", "charts_dir", type=click.Path(path_type=Path), default=None, metavar="DIR",
                      help="Write histogram and fan charts (PNG) to this folder.")(f)
     f = click.option("--json", "json_path", type=click.Path(path_type=Path), default=None,
                      help="Write the risk summary as JSON to this file.")(f)
-    f = click.option("--seed", type=click.IntRange(min=0), default=0, show_default=True,
-                     help="Seed of the random draws (same seed, same results on any cluster).")(f)
-    f = click.option("--samples", type=click.IntRange(min=1), default=1000, show_default=True,
-                     help="Number of Monte Carlo samples.")(f)
+    f = click.option("--seed", type=WholeNumber(0, MAX_SEED), default=0, show_default=True,
+                     help=f"Seed of the random draws, 0 to {MAX_SEED:,} (same seed, same results on any "
+                          "cluster).")(f)
+    f = click.option("--samples", type=WholeNumber(1, MAX_SAMPLES, why="each sample is a re-solve"), default=1000,
+                     show_default=True, help=f"Number of Monte Carlo samples, 1 to {MAX_SAMPLES:,}.")(f)
     f = click.argument("scenario", type=click.Path(path_type=Path))(f)
     return f
 
@@ -60,6 +141,8 @@ def risk_cmd(scenario: Path, samples: int, seed: int, json_path: Path | None, ch
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeElapsedColumn
 
     from planner.files import write_text_atomic
+    from planner.analysis.risk.sampling import coverage_warnings
+    from planner.scenario.loading import load_scenario
 
     bar = None
     task = None
@@ -75,16 +158,27 @@ def risk_cmd(scenario: Path, samples: int, seed: int, json_path: Path | None, ch
             task = bar.add_task("re-optimising samples", total=total)
         bar.update(task, completed=done)
 
+    s, warns = load_scenario(scenario)
+    warns = list(warns) + coverage_warnings(s)
     if not quiet:
-        err_console.print(f"[dim]{samples:,} samples, seed {seed}: planning the point estimate, "
-                          "drawing samples, starting workers ...[/]")
+        for w in warns:
+            err_console.print(f"[yellow]warning:[/] {escape(w)}")
+        first = f"connecting to the Dask scheduler at {scheduler}, then " if scheduler else ""
+        then = ("re-optimising on its workers" if scheduler else "solving in this process" if workers == 0 else
+                f"starting {workers} worker{'s' if workers != 1 else ''}" if workers else "starting a worker per core")
+        err_console.print(f"[dim]{samples:,} samples, seed {seed}: {escape(first)}planning the point estimate, "
+                          f"drawing samples, {then} ...[/]")
+    client = connect(scheduler) if scheduler else None  # before any solve: a wrong address fails at once
     try:
-        result = run_risk(scenario, samples=samples, seed=seed, rel_gap=rel_gap, scheduler=scheduler,
+        result = run_risk(s, samples=samples, seed=seed, rel_gap=rel_gap, scheduler=scheduler, client=client,
                           workers=workers, progress=progress, robust=not no_robust)
     finally:
         if bar is not None:
             bar.stop()
+        if client is not None:
+            client.close()
     summary = result.to_dict()
+    summary["warnings"] = warns
     if charts_dir is not None:
         from planner.output.risk_charts import write_charts
 
@@ -124,7 +218,8 @@ def print_risk(result: RiskResult, summary: dict) -> None:
     if not result.info.get("uncertain_numbers"):
         console.print("[yellow]The scenario has no 'uncertainty' entries: every sample is the point estimate.[/]")
     console.print(f"Under the uncertainty, with its prices kept: expected profit {_money(cur, pp['mean'])} "
-                  f"(± {_money(cur, 1.96 * pp['se'])} Monte Carlo), P5 {_money(cur, pp['p5'])}, "
+                  f"(95 % interval ± {_money(cur, 1.96 * pp['se'])}: the Monte Carlo error of the mean), "
+                  f"P5 {_money(cur, pp['p5'])}, "
                   f"P50 {_money(cur, pp['p50'])}, P95 {_money(cur, pp['p95'])}.")
     losses = int(round(loss * n))
     console.print(f"[bold]Chance of a loss: {100 * loss:.1f} %[/] ({losses:,} of {n:,} samples lose money).")

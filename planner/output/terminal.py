@@ -7,8 +7,9 @@ from rich.markup import escape
 from rich.measure import Measurement
 from rich.table import Table
 
-from planner.output.plan import LABOUR_NOTE, Plan
+from planner.output.plan import LABOUR_NOTE, Plan, ProductPlan
 from planner.output.text import money, price, qty, table
+from planner.scenario.schema import Scenario
 
 
 def status_line(p: Plan) -> str:
@@ -52,20 +53,44 @@ def shown_products(p: Plan) -> list:
     return [x for k, x in enumerate(p.products) if k in keep]
 
 
-def products_table(p: Plan, console: Console | None = None) -> Table:
+def sold_price(x: ProductPlan) -> float | None:
+    """The price shown for a product: the rule for every output is "no sale, no price".
+
+    A product that sells nothing (volume 0: shut down, or running at zero) charges no price, so
+    none is shown ('—' here and in the report page; the JSON and the workbook should carry null /
+    an empty cell).  The line's value at volume 0 is its ``price_intercept``, which the scenario
+    already states: it is not a price the plan charges.
+    """
+    return x.price if x.volume > 0 else None
+
+
+def run_label(x: ProductPlan, scenario: Scenario | None = None) -> str:
+    """Why a product runs: 'must' (must_run: may not be shut down), 'committed' (its min_volume > 0 makes
+    it run), 'yes' (chosen to run) or 'off' (shut down).  Without the scenario a forced product is 'must'."""
+    if x.must_run:
+        if scenario is not None:
+            sp = next((q for q in scenario.products if q.name == x.name), None)
+            if sp is not None and not sp.must_run and sp.min_volume > 0:
+                return "committed"
+        return "must"
+    return "yes" if x.running else "[red]off[/]"
+
+
+def products_table(p: Plan, console: Console | None = None, scenario: Scenario | None = None,
+                   title: str = "Products") -> Table:
     """Products in the plan; narrow consoles drop contribution, then revenue."""
     c = p.currency
 
     def build(drop: set[str]) -> Table:
-        t = table("Products")
+        t = table(title)
         cols = [x for x in ("product", "run", "volume", "price", "revenue", "contrib.", "fixed", "profit")
                 if x not in drop]
         for col in cols:
             _add(t, col, left=col in ("product", "run"), name=col == "product")
         for x in shown_products(p):
-            run = "must" if x.must_run else ("yes" if x.running else "[red]off[/]")
-            cells = {"product": escape(x.name), "run": run, "volume": qty(x.volume),
-                     "price": price(x.price, c) if x.volume > 0 else "—", "revenue": money(x.revenue, c),
+            sold = sold_price(x)
+            cells = {"product": escape(x.name), "run": run_label(x, scenario), "volume": qty(x.volume),
+                     "price": price(sold, c) if sold is not None else "—", "revenue": money(x.revenue, c),
                      "contrib.": money(x.contribution, c), "fixed": money(x.fixed_cost, c),
                      "profit": money(x.profit, c)}
             t.add_row(*(cells[k] for k in cols))
@@ -74,13 +99,13 @@ def products_table(p: Plan, console: Console | None = None) -> Table:
     return _fit(build, console, ["contrib.", "revenue", "fixed"])
 
 
-def resources_table(p: Plan, console: Console | None = None) -> Table:
+def resources_table(p: Plan, console: Console | None = None, title: str = "Resources") -> Table:
     """Resources with use, capacity, utilisation, shadow price (and its capacity range when known)."""
     c = p.currency
     has_range = any(getattr(r, "shadow_price_range", None) for r in p.resources)
 
     def build(drop: set[str]) -> Table:
-        t = table("Resources")
+        t = table(title)
         cols = [x for x in ("resource", "used", "capacity", "util.", "shadow price", "holds for")
                 if x not in drop and (x != "holds for" or has_range)]
         for col in cols:
@@ -122,12 +147,71 @@ def standalone_table(p: Plan, console: Console | None = None) -> Table:
     return _fit(build, console, ["max-rev vol.", "price"])
 
 
-def print_plan(p: Plan, console: Console | None = None, standalone: bool = True) -> None:
-    """Print the whole plan: status, products, resources, standalone economics, notes."""
+def label_note(p: Plan, scenario: Scenario | None) -> str:
+    """The key to the 'run' labels and the '—' prices that appear in the products table ('' if none)."""
+    labels = {run_label(x, scenario) for x in shown_products(p)}
+    parts = []
+    if "must" in labels:
+        parts.append("must: must_run, may not be shut down")
+    if "committed" in labels:
+        parts.append("committed: its min_volume makes it run")
+    if any(sold_price(x) is None for x in shown_products(p)):
+        parts.append("price —: nothing sold, so no price")
+    return "; ".join(parts)
+
+
+def chosen_options_table(pick: dict, chosen: Plan) -> Table:
+    """The options picked together: share used, capacity added, cost."""
+    c = chosen.currency
+    units = {r.name: r.unit for r in chosen.resources}
+    t = table("Options chosen together")
+    for col in ("option", "used", "adds", "cost"):
+        t.add_column(col, justify="left" if col in ("option", "adds") else "right", overflow="fold",
+                     no_wrap=col not in ("option", "adds"))
+    for x in pick["picked"]:
+        adds = ", ".join(f"{escape(r)} +{qty(a)}{' ' + escape(units.get(r, '')) if units.get(r) else ''}"
+                         for r, a in x["adds"].items())
+        t.add_row(escape(x["name"]), f"{100 * x['used']:.4g}%", adds, money(x["cost"], c))
+    return t
+
+
+def print_chosen(pick: dict, chosen: Plan, con: Console, scenario: Scenario | None = None) -> None:
+    """The plan with the options chosen together (--choose-options): the options, then its products and
+    resources with the options' capacity added.  ``chosen`` is that plan (profit before the options' cost)."""
+    c = chosen.currency
+    if not pick["picked"]:
+        con.print("No set of capacity options pays: the plan above stands.")
+        con.print()
+        return
+    con.print(f"[bold]The plan with the options chosen together[/] (their capacity added): profit "
+              f"{money(chosen.profit, c)} before their cost, certified gap {chosen.gap:.2e}")
+    con.print()
+    con.print(chosen_options_table(pick, chosen))
+    con.print()
+    con.print(products_table(chosen, con, scenario, title="Products, with the options"))
+    note = label_note(chosen, scenario)
+    if note:
+        con.print(f"[dim]{note}[/]")
+    con.print()
+    if chosen.resources:
+        con.print(resources_table(chosen, con, title="Resources, with the options' capacity added"))
+        con.print()
+
+
+def print_plan(p: Plan, console: Console | None = None, standalone: bool = True, scenario: Scenario | None = None,
+               chosen: Plan | None = None) -> None:
+    """Print the whole plan: status, products, resources, capacity analysis, the plan with the options
+    chosen (``chosen``, from --choose-options), standalone economics, notes.
+
+    ``scenario`` (optional) tells the 'run' labels apart: must (must_run) or committed (min_volume).
+    """
     con = console or Console()
     con.print(status_line(p))
     con.print()
-    con.print(products_table(p, con))
+    con.print(products_table(p, con, scenario))
+    note = label_note(p, scenario)
+    if note:
+        con.print(f"[dim]{note}[/]")
     if len(p.products) > MAX_ROWS:
         running = sum(x.running for x in p.products)
         con.print(f"[dim]… the {MAX_ROWS} most profitable of {len(p.products):,} products shown "
@@ -148,6 +232,8 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True)
         from planner.output.capacity import print_capacity
 
         print_capacity(p, con)
+    if chosen is not None and p.extras.get("option_pick") is not None:
+        print_chosen(p.extras["option_pick"], chosen, con, scenario)
     if standalone:
         con.print(standalone_table(p, con))
         con.print()

@@ -17,7 +17,11 @@ contracts, and prices were negotiated); its standard errors are exact.
 Uncertainty of (a, b) for the volume-on-price fit comes from the OLS
 covariance of (α, β) by the delta method (first-order, stated as such).  The
 confidence interval of b is exact (it inverts β's t-interval; b = −1/β is
-monotone); the interval of a uses the delta-method standard error.
+monotone on either side of 0); the interval of a uses the delta-method
+standard error.  Where β's interval reaches past 0 the confidence set of b is
+two rays, (−∞, −1/β_hi] and [−1/β_lo, ∞); the one holding the estimate is
+reported (an open end is None), so the interval always contains the estimate,
+and a wrong-signed fit (β > 0, b < 0) reports a negative interval.
 
 The t quantile is computed here (regularised incomplete beta function by its
 continued fraction, Numerical Recipes §6.4, and bisection), so scipy is not a
@@ -234,12 +238,14 @@ def fit_line(product: str, prices: Any, volumes: Any, method: str = "volume-on-p
         t = t_quantile(0.5 + level / 2, n - 2) if n > 2 else math.nan
         a_ci = (_fin(a - t * a_se), _fin(a + t * a_se))
         lo_beta, hi_beta = beta - t * f.slope_se, beta + t * f.slope_se
-        if hi_beta < 0:  # b = -1/beta is increasing in beta < 0: the interval maps end to end
-            b_ci = (-1.0 / lo_beta, -1.0 / hi_beta)
-        elif lo_beta < 0:  # beta's interval reaches 0: b has no upper limit
+        if not (math.isfinite(lo_beta) and math.isfinite(hi_beta)) or beta == 0:
+            b_ci = (None, None)  # fewer than 3 points: no interval
+        elif hi_beta < 0 or lo_beta > 0:  # b = -1/beta is increasing on either side of 0: ends map to ends
+            b_ci = (-1.0 / lo_beta, -1.0 / hi_beta)  # (both negative for a wrong-signed beta > 0)
+        elif beta < 0:  # beta's interval reaches past 0: the ray holding the estimate, no upper limit
             b_ci = (-1.0 / lo_beta, None)
-        else:
-            b_ci = (None, None)
+        else:  # wrong sign (beta > 0) and reaching past 0: the ray holding the negative estimate
+            b_ci = (None, _fin(-1.0 / hi_beta))
     else:
         if np.ptp(q) == 0:
             raise ValueError(f"every observed volume is {q[0]:g}: the history says nothing about how price answers volume")

@@ -25,6 +25,12 @@ valid value, and counted): intercepts, unit costs and capacities below 0 become
 0; a slope drawn below 1 % of the scenario's slope becomes that 1 % (a
 price–demand line never turns flat or rising, which would also unbound a
 product with no cap); a product whose scenario slope is 0 keeps slope ≥ 0.
+
+Coverage (:func:`coverage_warnings`): an entry whose distribution cannot produce
+the scenario's own value (outside a uniform's or triangular's low..high), or
+practically never comes near it (a normal whose mean lies more than ``FAR_SD``
+standard deviations away, or with sd 0 at another value), is warned about: the
+samples then describe other numbers than the ones the plan was made for.
 """
 
 from __future__ import annotations
@@ -40,6 +46,9 @@ from planner.scenario.schema import Scenario
 #: Fraction of the scenario's slope below which a drawn slope is truncated.
 SLOPE_FLOOR_SHARE = 0.01
 FIELDS = ("price_intercept", "price_slope", "unit_cost", "capacity")
+#: A normal distribution centred more than this many standard deviations from the scenario's value is warned
+#: about (a normal draw lies more than 4 sd above its mean about 3 times in 100,000: "practically never").
+FAR_SD = 4.0
 
 
 @dataclass
@@ -138,6 +147,43 @@ def draw_samples(s: Scenario, n: int, seed: int) -> Samples:
         values[name] = np.where(low, floor, vals)
         index[name] = np.array(keys, dtype=np.int64)
     return Samples(n, seed, index, values, truncated)
+
+
+def _g(x: float) -> str:
+    return f"{x:,.6g}"
+
+
+def coverage_warnings(s: Scenario) -> list[str]:
+    """One sentence per ``uncertainty`` entry whose distribution cannot produce the scenario's own value.
+
+    Uniform and triangular: the value lies outside low..high.  Normal with its own ``mean``: the
+    value lies more than FAR_SD standard deviations from it (or sd is 0 and the mean differs).
+    Fitted entries are centred on the scenario's line, so they always cover it.
+    """
+    out = []
+    for i, e in enumerate(s.uncertainty, start=1):
+        if e.product is not None:
+            p = next(x for x in s.products if x.name == e.product)
+            base, owner = float(getattr(p, e.field)), f"products[{e.product}].{e.field}"
+        else:
+            r = next(x for x in s.resources if x.name == e.resource)
+            base, owner = float(r.capacity), f"resources[{e.resource}].capacity"
+        where = f"uncertainty[{i}] ({owner} = {_g(base)})"
+        fix = (f"centre the distribution on {_g(base)}, or change {owner} to the value you expect, so that the "
+               "risk is that of the plan you are shown")
+        if e.distribution in ("uniform", "triangular") and not e.low <= base <= e.high:
+            out.append(f"{where}: the scenario's value {_g(base)} lies outside the range the {e.distribution} "
+                       f"distribution covers ({_g(e.low)} to {_g(e.high)}), so no sample takes it and the risk "
+                       f"figures describe other numbers than the plan's ({fix})")
+        elif e.distribution == "normal" and e.mean is not None and e.mean != base:
+            if e.sd == 0:
+                out.append(f"{where}: the normal distribution has sd 0 at mean {_g(e.mean)}, so every sample "
+                           f"takes {_g(e.mean)} and none the scenario's value {_g(base)} ({fix})")
+            elif abs(base - e.mean) > FAR_SD * e.sd:
+                out.append(f"{where}: the scenario's value {_g(base)} lies {abs(base - e.mean) / e.sd:,.1f} sd "
+                           f"from the normal distribution's mean {_g(e.mean)} (sd {_g(e.sd)}), more than "
+                           f"{FAR_SD:g} sd, so practically no sample comes near it ({fix})")
+    return out
 
 
 def _correlate(s: Scenario, entries: list, cols: list[int], z: np.ndarray) -> np.ndarray:
