@@ -23,6 +23,7 @@ import click
 from rich.console import Console
 from rich.markup import escape
 
+from planner.engine.settings import MAX_GAP
 from planner.errors import PlannerError
 
 console = Console()
@@ -33,8 +34,8 @@ CAPACITY_AUTO_MAX = 100
 
 #: Longest --time-limit, in seconds (about 11.6 days): longer is no limit at all; leave the option out instead.
 TIME_LIMIT_MAX = 1e6
-#: Loosest --gap of a plan: the plan is still called optimal at this gap, so a looser one would promise too little.
-GAP_MAX = 0.1
+#: Loosest --gap of a plan (the engine's own limit): the plan is still called optimal at this gap.
+GAP_MAX = MAX_GAP
 GAP_WHY = ("a plan within this gap is called optimal, so a looser one would promise too little; for a quick "
            "rough plan use --time-limit, which reports the gap it reached")
 #: Largest capacity a --from / --to may name (the scenario's own limit on any number, schema.MAX_MAGNITUDE).

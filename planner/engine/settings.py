@@ -9,8 +9,9 @@ from __future__ import annotations
 
 #: Default certified relative gap of a plan: (bound − profit) / max(|profit|, 1).
 DEFAULT_GAP = 1e-4
-#: Largest gap a caller may ask for: beyond this a "plan" says little about what is possible.
-MAX_GAP = 0.5
+#: Largest gap a caller may ask for: a plan within the gap is called optimal, so a looser one would
+#: promise too little (a quick rough plan is what a time limit is for).
+MAX_GAP = 0.1
 
 # --- KKT polish and active-set classification (planner.engine.kkt, analysis.capacity.parametric)
 #: A volume within this fraction of its bound's scale counts as at the bound.

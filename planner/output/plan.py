@@ -34,8 +34,14 @@ class ProductPlan:
     standalone: Standalone
     must_run: bool = False
 
+    @property
+    def sold_price(self) -> float | None:
+        """The price the plan charges: "no sale, no price" (None where the volume is 0), in every output."""
+        return self.price if self.volume > 0 else None
+
     def to_dict(self) -> dict[str, Any]:
         d = {f: getattr(self, f) for f in _PRODUCT_FIELDS}
+        d["price"] = self.sold_price
         d["standalone"] = self.standalone.to_dict()
         return d
 

@@ -61,7 +61,7 @@ def sold_price(x: ProductPlan) -> float | None:
     an empty cell).  The line's value at volume 0 is its ``price_intercept``, which the scenario
     already states: it is not a price the plan charges.
     """
-    return x.price if x.volume > 0 else None
+    return x.sold_price
 
 
 def run_label(x: ProductPlan, scenario: Scenario | None = None) -> str:

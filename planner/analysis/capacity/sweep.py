@@ -29,13 +29,15 @@ import numpy as np
 
 from models.data import MixData, committed_floor
 
-from planner.errors import PlannerError, ScenarioError, Problem
+from planner.engine.infeasible import explain
+from planner.errors import ScenarioError, Problem
 from planner.scenario.arrays import mix_data
 from planner.scenario.schema import Scenario
 from planner.analysis.capacity.paths import SlatePath, overtakes
 from planner.analysis.capacity.ranging import slate_change
 from planner.analysis.capacity.resolve import resolve, slate_key
 from planner.engine import Engine
+from planner.engine.verify import check_plan
 from models.economics import bottleneck
 
 #: Relative distance either side of a change point at which it is confirmed by re-solving.
@@ -187,10 +189,14 @@ def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, step
     lo, hi = min(start, stop), max(start, stop)
     need = float(d.used(committed_floor(d))[r])
     if lo < need - 1e-9 * max(need, 1.0) or lo < 0:
-        raise PlannerError(f"the sweep of {resource} starts at {lo:,.6g} {unit}, but the committed and minimum "
-                           f"volumes need {need:,.6g} {unit}: start at {max(need, 0):,.6g} or above")
+        raise ScenarioError([Problem(f"--from {lo:,.6g}", f"the sweep of {resource} starts below what the committed "
+                                     f"and minimum volumes need ({need:,.6g} {unit})",
+                                     f"start at {max(need, 0):,.6g} or above")])
     if steps < 1:
-        raise PlannerError("--steps must be at least 1")
+        raise ScenarioError([Problem(f"--steps {steps}", "must be at least 1")])
+    room = d.capacity.copy()
+    room[r] = max(room[r], need)
+    explain(s, d.with_capacity(room))  # another limit the commitments overload: no capacity of this one helps
     sw = _Sweeper(d, r, s.plant_fixed_cost, rel_gap, hi)
     H = np.linspace(lo, hi, steps + 1)
     T = H - sw.H0
@@ -209,6 +215,8 @@ def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, step
         if slate_key(slates[k]) != slate_key(slates[k + 1]):
             sw.locate(float(T[k]), slates[k], float(T[k + 1]), slates[k + 1], changes)
     points = [_point(sw, float(t), sl) for t, sl in zip(T, slates)]
+    for t, sl, pt in zip(T, slates, points):  # each point is a plan: held to every limit at its own capacity
+        check_plan(d.with_capacity(sw.cap(float(t))), np.array([pt.volumes[n] for n in d.products]), sl)
     bps = _breakpoints(sw, T, slates, changes)
     stats = {"seconds": time.perf_counter() - t_start, "fast_solves": sw.resolves,
              "dual_checks": sw.certified,

@@ -26,7 +26,7 @@ import numpy as np
 
 from models.data import MixData
 
-from planner.errors import InfeasibleError, PlannerError, SolverError
+from planner.errors import EXIT_BAD_INPUT, InfeasibleError, PlannerError, SolverError
 from planner.output.plan import Plan
 from planner.scenario.arrays import mix_data
 from planner.scenario.schema import Scenario
@@ -42,7 +42,9 @@ STATUS = ("optimal", "infeasible", "failed")
 
 
 class ClusterError(PlannerError):
-    """The Dask scheduler could not be reached or the cluster failed."""
+    """The Dask scheduler could not be reached (bad input: the address; exit 2)."""
+
+    exit_code = EXIT_BAD_INPUT
 
 
 def solve_chunk(base: MixData, start: np.ndarray, points: np.ndarray, rel_gap: float,
@@ -222,7 +224,7 @@ def _run_chunks(base, start, points, rel_gap, pieces, scheduler, workers, client
             if scheduler:
                 try:
                     client = own_client = Client(scheduler, timeout=CONNECT_TIMEOUT)
-                except (OSError, TimeoutError) as e:
+                except Exception as e:  # unreachable, refused or malformed: the address is at fault
                     raise ClusterError(f"cannot reach the Dask scheduler at {scheduler}: {e} "
                                        "(check the address, or leave --scheduler out for a local cluster)") from None
             else:
