@@ -6,6 +6,7 @@ import json
 from pathlib import Path
 
 import click
+from rich.markup import escape
 
 from planner.errors import Problem, ScenarioError
 
@@ -41,17 +42,28 @@ def register(main: click.Group) -> None:
     @click.option("--sweep-steps", type=click.IntRange(min=2, max=200), default=11, show_default=True,
                   help="Points in a --sweep.")
     @click.option("--no-options", is_flag=True, help="Do not value the scenario's capacity options.")
+    @click.option("--risk", "risk_samples", type=click.IntRange(min=1), default=None, metavar="N",
+                  help="Also show the plan's risk over N Monte Carlo samples (chance of a loss, P5/P50/P95, "
+                       "the robust choice), as `planner risk` does.  Default: no risk part.")
+    @click.option("--seed", type=click.IntRange(min=0), default=0, show_default=True,
+                  help="Seed of the --risk samples.")
+    @click.option("--risk-workers", type=click.IntRange(min=0), default=0, show_default=True,
+                  help="Worker processes for --risk (0: this process, no Dask cluster).")
     @solve_options
     @friendly
     def report_cmd(scenario: Path, out_dir: Path, sweep_resource: str | None, sweep_file: Path | None,
                    sweep_steps: int, no_options: bool, rel_gap: float, time_limit: float | None,
-                   solver: str | None, quiet: bool, debug: bool) -> None:
+                   solver: str | None, quiet: bool, debug: bool, risk_samples: int | None = None, seed: int = 0,
+                   risk_workers: int = 0) -> None:
         """Plan SCENARIO and write a report a manager can read: HTML page, Excel workbook, charts."""
         from planner.api import plan
+        from planner.files import check_folder
         from planner.scenario.loading import load_scenario
         from planner.analysis.replan import report_context, sweep_for_report
+        from planner.output.capacity import add_option_rates
         from planner.output.report import write_report
 
+        check_folder(out_dir, "the report (--out)")  # before any solving: a wrong --out is found at once
         s, warnings = load_scenario(scenario)
         solve = {"rel_gap": rel_gap, "time_limit": time_limit, "solver": solver}
         p = plan(s, **solve)
@@ -66,12 +78,20 @@ def register(main: click.Group) -> None:
         if not quiet and s.options and not no_options and not p.extras.get("options"):
             console.print(f"[dim]valuing {len(s.options)} capacity options by re-solving ...[/]")
         ctx = report_context(p, s, source=scenario, sweep=sweep, with_options=not no_options, **solve)
+        add_option_rates(p, s)  # the terminal shows a part-usable option's rate
+        if risk_samples is not None:
+            from planner.analysis.risk.run import run_risk
+
+            if not quiet:
+                console.print(f"[dim]risk: {risk_samples:,} samples, seed {seed} ...[/]")
+            result = run_risk(s, samples=risk_samples, seed=seed, workers=risk_workers)
+            ctx.risk, ctx.risk_result = result.to_dict(), result
         paths = write_report(p, s, out_dir, context=ctx)
         if not quiet:
             from planner.output.terminal import print_plan
 
             print_plan(p, console, standalone=False)
             charts = sum(1 for k in paths if k.startswith("chart:")) // 2
-            console.print(f"\nreport written to [bold]{paths['html']}[/]\n"
-                          f"  workbook {paths['xlsx']}, JSON {paths['json']}, "
-                          f"{charts} charts (PNG and SVG) in {out_dir / 'charts'}")
+            console.print(f"\nreport written to [bold]{escape(str(paths['html']))}[/]\n"
+                          f"  workbook {escape(str(paths['xlsx']))}, JSON {escape(str(paths['json']))}, "
+                          f"{charts} charts (PNG and SVG) in {escape(str(out_dir / 'charts'))}")
