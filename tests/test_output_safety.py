@@ -346,3 +346,11 @@ def test_a_killed_writer_leaves_a_temporary_that_the_next_run_removes(tmp_path):
     assert target.read_text() == OLD
     write_text_atomic(target, "new\n")
     assert target.read_text() == "new\n" and not list(tmp_path.glob("*.tmp")) and not list(tmp_path.glob(".*.tmp"))
+
+
+def test_a_pipe_given_as_sweep_json_is_refused_before_it_blocks(tmp_path, demo_path):
+    pipe = _fifo(tmp_path / "sweep.json")
+    res = CliRunner().invoke(main, ["report", str(demo_path), "--out", str(tmp_path / "r"), "--sweep-json",
+                                    str(pipe), "-q"])
+    assert res.exit_code == 2
+    assert f"{pipe}: is not a regular file (give the path of a sweep JSON file)" in res.stderr

@@ -13,6 +13,8 @@ from planner.errors import Problem, ScenarioError
 
 def load_sweep_file(path: Path) -> dict:
     """A sweep JSON file (``points`` [{capacity, profit, shadow_price, ...}], ``breakpoints``), checked."""
+    if path.exists() and not path.is_file():  # a pipe would block the read; a folder has no text
+        raise ScenarioError([Problem(str(path), "is not a regular file", "give the path of a sweep JSON file")])
     try:
         data = json.loads(path.read_text(encoding="utf-8"))
     except OSError as e:
@@ -64,14 +66,12 @@ def register(main: click.Group) -> None:
         from planner.output.report import write_report
 
         check_folder(out_dir, "the report (--out)")  # before any solving: a wrong --out is found at once
+        sweep = load_sweep_file(sweep_file) if sweep_file is not None else None
         s, warnings = load_scenario(scenario)
         solve = {"rel_gap": rel_gap, "time_limit": time_limit, "solver": solver}
         p = plan(s, **solve)
         p.warnings[:0] = [w for w in warnings if w not in p.warnings]
-        sweep = None
-        if sweep_file is not None:
-            sweep = load_sweep_file(sweep_file)
-        elif sweep_resource is not None:
+        if sweep_resource is not None:
             if not quiet:
                 console.print(f"[dim]sweeping {sweep_resource} at {sweep_steps} capacities ...[/]")
             sweep = sweep_for_report(s, sweep_resource, steps=sweep_steps, base=p, **solve)

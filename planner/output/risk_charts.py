@@ -21,7 +21,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from planner.files import make_folder, write_files
-from planner.output.report.charts import Chart, render, wrap_label
+from planner.output.report.charts import Chart, quiet_glyphs, render, wrap_label
 from planner.output.report.fmt import money, per_unit
 from planner.output.report.style import PALETTE as C
 from planner.output.report.style import RC, count_axis, money_axis
@@ -50,7 +50,7 @@ def _histogram(result: RiskResult) -> Chart:
         ax.set_ylabel("samples")
         money_axis(ax, cur, axis="x")
         count_axis(ax, axis="y")
-        ax.set_title(f"{result.plan.scenario}: profit over {result.samples:,} samples")
+        ax.set_title(wrap_label(f"{result.plan.scenario}: profit over {result.samples:,} samples", 80, 2))
         ax.legend(loc="upper left")
     loss = float(np.mean(result.plan_profit < 0)) if result.samples else 0.0
     return Chart(key="risk-profit-histogram", title="Profit under uncertainty",
@@ -129,10 +129,11 @@ def risk_charts(result: RiskResult) -> list[Chart]:
 def write_charts(result: RiskResult, folder: str | Path) -> list[Path]:
     """Write the charts as PNG into ``folder`` (all or, on a failure, none); returns their paths."""
     out = make_folder(folder, "the charts (--charts)")
-    charts = risk_charts(result)
     stem = {"risk-profit-histogram": "profit_histogram", "risk-profit-fan": "profit_fan",
             "risk-shadow-prices": "shadow_prices"}
-    data = [(out / f"{stem[c.key]}.png", render(c, "png", dpi=120)) for c in charts]
+    with quiet_glyphs():
+        charts = risk_charts(result)
+        data = [(out / f"{stem[c.key]}.png", render(c, "png", dpi=120)) for c in charts]
     for c in charts:
         c.figure.clear()
     return write_files([(p, lambda tmp, b=b: tmp.write_bytes(b)) for p, b in data])

@@ -37,14 +37,23 @@ def write_report(plan: Plan, scenario: Scenario, out_dir: str | Path, source: st
     escaped (:meth:`ReportContext.for_display`); plan.json keeps them exactly (JSON escapes them).
     Chart files are named by :func:`planner.files.file_stems`: two names never share a file.
     """
+    from planner.files import make_folder
+    from planner.output.report.charts import quiet_glyphs
+
+    out = make_folder(out_dir, "the report (--out)")
+    with quiet_glyphs():
+        return _write(plan, scenario, out, source, sweep, context)
+
+
+def _write(plan: Plan, scenario: Scenario, out: Path, source: str | Path, sweep: dict[str, Any] | None,
+           context: ReportContext | None) -> dict[str, Path]:
     import json
 
-    from planner.files import check_target, inside, make_folder, write_files
+    from planner.files import check_target, inside, write_files
     from planner.output.report.charts import all_charts, render
     from planner.output.report.html import render_html
     from planner.output.report.workbook import workbook_bytes
 
-    out = make_folder(out_dir, "the report (--out)")
     ctx = context or make_context(plan, scenario, source=source, sweep=sweep)
     shown = ctx.for_display()
     charts = all_charts(shown.plan, shown.scenario, shown.sweep)

@@ -23,6 +23,8 @@ from __future__ import annotations
 
 import math
 import textwrap
+import warnings
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -140,11 +142,11 @@ def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str, key:
         ax.set_xlim(0, xmax)
         pad = 0.06 * (ymax - ymin or 1.0)
         ax.set_ylim(ymin - pad, ymax + 2.2 * pad)
-        ax.set_xlabel(f"volume ({unit} per {period})")
-        ax.set_ylabel(f"amount ({currency} per {period})")
+        ax.set_xlabel(wrap_label(f"volume ({unit} per {period})", 70, 2))
+        ax.set_ylabel(wrap_label(f"amount ({currency} per {period})", 50, 2))
         money_axis(ax, currency)
         count_axis(ax)
-        ax.set_title(pp.name)
+        ax.set_title(wrap_label(pp.name, 46, 2))
         key_legend = ax.legend(handles=curves, loc="upper right", handlelength=2.2, fontsize=8,
                                facecolor=C["paper"], framealpha=0.85, frameon=True, edgecolor="none")
         ax.add_artist(key_legend)
@@ -349,11 +351,11 @@ def sweep_chart(sweep: dict[str, Any], plan: Plan) -> Chart:
             fig.get_layout_engine().set(rect=(0, bottom, 1, 1 - bottom))
         ax_p.set_ylabel(f"optimal profit ({cur} per {plan.period})")
         ax_s.set_ylabel(f"shadow price ({cur} per {per_unit(unit)})")
-        ax_s.set_xlabel(f"capacity of {name} ({unit or 'units'} per {plan.period})")
+        ax_s.set_xlabel(wrap_label(f"capacity of {name} ({unit or 'units'} per {plan.period})", 90, 2))
         money_axis(ax_p, cur)
         money_axis(ax_s, cur)
         count_axis(ax_s)
-        ax_p.set_title(f"Capacity sweep: {name}")
+        ax_p.set_title(wrap_label(f"Capacity sweep: {name}", 80, 2))
         _number_changes(fig, ax_p, bps, prof)
     return Chart(key=f"sweep-{file_stem(name)}", title=f"Capacity sweep of {name}",
                  caption=("Each dot is a full re-solve at that capacity. Numbered dashed lines: the slate, a binding "
@@ -453,6 +455,15 @@ def _top_products(plan: Plan, limit: int) -> list[ProductPlan]:
                                                                     (x.standalone.max_profit or 0.0))))
     keep = {id(x) for x in ranked[:limit]}
     return [x for x in plan.products if id(x) in keep]
+
+
+@contextmanager
+def quiet_glyphs():
+    """A context in which matplotlib does not warn about characters its font lacks (they are drawn as
+    boxes; the tables and the workbook show every name whole)."""
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message=r"Glyph \d+ .*missing from font")
+        yield
 
 
 def render(chart: Chart, fmt: str, path=None, dpi: int = 150) -> bytes | None:
