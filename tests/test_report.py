@@ -314,9 +314,14 @@ def test_terminal_drops_optional_columns_when_narrow(demo_plan):
     narrow = Console(width=60, record=True, color_system=None)
     narrow.print(products_table(demo_plan, narrow))
     wide_text, narrow_text = wide.export_text(), narrow.export_text()
-    assert "contrib." in wide_text and "contrib." not in narrow_text
+    head = narrow_text.splitlines()[1]  # the header row
+    assert "contrib." in wide_text and "contrib." not in head
     assert max(len(x) for x in narrow_text.splitlines()) <= 60
-    assert "profit" in narrow_text
+    assert "profit" in head
+    # ... and says so under the table, naming what it left out.
+    assert "columns left out at this width: contrib., revenue; widen the terminal or use --json" in \
+        " ".join(narrow_text.split())
+    assert "columns left out" not in wide_text
 
 
 # --- the page in a real browser ---------------------------------------------------------------------------------

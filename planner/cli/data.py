@@ -33,10 +33,16 @@ class HistoryError(PlannerError):
 def _check_target(path: Path, force: bool) -> None:
     from planner.scenario.forms.writers import form_of
 
+    from planner.files import check_folder, check_target
+
     try:
-        form_of(path)
+        form = form_of(path)
     except ValueError as e:
         raise TargetError(str(e)) from None
+    if form == "csv":
+        check_folder(path, "the CSV files")  # a pipe, a device or a file named like a folder: exit 2
+    else:
+        check_target(path)
     if path.exists() and not force and (path.is_file() or any(path.iterdir())):
         raise TargetError(f"{path} exists; pass --force to overwrite it")
 

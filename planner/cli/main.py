@@ -1,14 +1,20 @@
 """The command line: a thin layer over the Python API.
 
-Exit codes: 0 plan made, 2 bad input (a scenario, a file or an option: the
-message says where and how to fix it), 3 infeasible scenario, 4 solver
-trouble, 5 internal error (a bug: rerun with --debug and report it), 130
-interrupted.  Other commands register themselves on ``main`` from their own
-modules (see ``COMMAND_MODULES``), so this file stays small.
+Exit codes (every command):
 
-Every numeric option is a :class:`FiniteFloat` (or :class:`WholeNumber`): NaN
-and infinity are refused in every spelling, and the range is stated in the
-message and in ``--help``.
+- 0: done (for a plan, read its status: ``optimal`` or ``time_limit``);
+- 2: bad input, with the fix: the scenario, an option's value, or an output path that cannot be
+  written (a folder where a file belongs, a file where a folder belongs, a pipe, a device, a place
+  that is not writable); click's own usage errors are 2 as well;
+- 3: the scenario is infeasible (the commitments that cannot fit are named);
+- 4: solver trouble (a solver missing or failing, a plan that could not be certified);
+- 5: internal error, a bug: rerun with ``--debug`` and report it;
+- 130: interrupted (Ctrl-C); files already written are complete, none is half-written.
+
+Other commands register themselves on ``main`` from their own modules (see
+``COMMAND_MODULES``), so this file stays small.  Every numeric option is a
+:class:`FiniteFloat` (or :class:`WholeNumber`): NaN and infinity are refused
+in every spelling, and the range is stated in the message and in ``--help``.
 """
 
 from __future__ import annotations

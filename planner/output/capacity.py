@@ -7,7 +7,7 @@ from rich.markup import escape
 from rich.table import Table
 
 from planner.output.plan import Plan
-from planner.output.text import table, money, qty
+from planner.output.text import add_column, fit_table, money, qty, table
 
 
 def _cap(x: float | None, unit: str) -> str:
@@ -50,22 +50,63 @@ def range_notes(p: Plan) -> list[str]:
     return out
 
 
-def options_table(p: Plan) -> Table:
-    """Each option valued on its own by re-solving, beside the shadow-price estimate."""
-    c = p.currency
-    t = table("Capacity options, each on its own (re-solved)")
-    for col in ("option", "cost", "gain", "net gain", "break-even", "λ×amount"):
-        t.add_column(col, justify="left" if col == "option" else "right", overflow="fold",
-                     no_wrap=col != "option")
+def _unit_of(p: Plan, o: dict) -> str:
+    units = {r.name: r.unit for r in p.resources}
+    found = {units.get(k, "") for k in (o.get("adds") or {})}
+    return found.pop() if len(found) == 1 else ""
+
+
+def option_rate(o: dict) -> float | None:
+    """Cost per unit of an option usable in part: its ``cost_per_unit`` where given (see
+    :func:`add_option_rates`), else its cost over the amount used; None if neither is known."""
+    if o.get("kind") != "part":
+        return None
+    if o.get("cost_per_unit") is not None:
+        return float(o["cost_per_unit"])
+    amount = sum((o.get("adds") or {}).values()) * (o.get("used") or 0.0)
+    return o["cost"] / amount if amount > 0 and o.get("cost") is not None else None
+
+
+def add_option_rates(p: Plan, scenario) -> None:
+    """Give each part-usable option in ``p.extras['options']`` its ``cost_per_unit`` from the scenario
+    (currency per resource unit), where the analysis has not."""
+    rates = {o.name: o.cost_per_unit for o in scenario.options if o.adds_up_to is not None}
     for o in p.extras.get("options", []):
-        name = escape(o["name"])
-        if o["kind"] == "part":
-            name += f" ({100 * o['used']:.3g}% used)"
-        be = money(o["break_even_cost"], c)
-        net = money(o["net_gain"], c)
-        net = f"[green]{net}[/]" if o["pays"] else f"[red]{net}[/]" if o["net_gain"] < 0 else net
-        t.add_row(name, money(o["cost"], c), money(o["gain"], c), net, be, money(o["estimate"], c))
-    return t
+        if o.get("kind") == "part" and o.get("cost_per_unit") is None and rates.get(o.get("name")) is not None:
+            o["cost_per_unit"] = rates[o["name"]]
+
+
+def options_table(p: Plan, console: Console | None = None) -> Table:
+    """Each option valued on its own by re-solving, beside the shadow-price estimate.
+
+    An option usable in part shows its rate (cost per unit) and its break-even rate (the cost per unit at
+    which all of it just pays); an all-or-nothing one its cost and the cost at which it just pays."""
+    c = p.currency
+
+    def build(drop: set[str], width: int | None) -> Table:
+        t = table("Capacity options, each on its own (re-solved)")
+        cols = [x for x in ("option", "rate", "cost", "gain", "net gain", "break-even", "λ×amount") if x not in drop]
+        for col in cols:
+            add_column(t, col, left=col == "option", name=col == "option", name_width=width)
+        for o in p.extras.get("options", []):
+            name = escape(o["name"])
+            unit = escape(_unit_of(p, o) or "unit")
+            rate = option_rate(o)
+            if o["kind"] == "part":
+                name += f" ({100 * o['used']:.3g}% used)"
+                be_rate = o.get("break_even_cost_per_unit")
+                be = f"{money(be_rate, c, 2)}/{unit}" if be_rate is not None else money(o["break_even_cost"], c)
+                rate_text = f"{money(rate, c, 2)}/{unit}" if rate is not None else "—"
+            else:
+                be, rate_text = money(o["break_even_cost"], c), "one price"
+            net = money(o["net_gain"], c)
+            net = f"[green]{net}[/]" if o["pays"] else f"[red]{net}[/]" if o["net_gain"] < 0 else net
+            cells = {"option": name, "rate": rate_text, "cost": money(o["cost"], c), "gain": money(o["gain"], c),
+                     "net gain": net, "break-even": be, "λ×amount": money(o["estimate"], c)}
+            t.add_row(*(cells[k] for k in cols))
+        return t
+
+    return fit_table(build, console, ["λ×amount", "gain"])
 
 
 def print_capacity(p: Plan, console: Console) -> None:
@@ -77,13 +118,16 @@ def print_capacity(p: Plan, console: Console) -> None:
             console.print(escape(line))
         console.print()
     if p.extras.get("options"):
-        console.print(options_table(p))
+        console.print(options_table(p, console))
         for o in p.extras["options"]:
             if o["slate_change"]:
                 console.print(escape(f"{o['name']} changes the slate: {o['slate_change']}"))
-        console.print("[dim]gain: profit with the option less profit without, before its cost; break-even: "
-                      "the cost at which all of it just pays; λ×amount: shadow price × amount, the "
-                      "small-change estimate.[/]")
+        console.print("[dim]rate: cost per unit of an option usable in part; gain: profit with the option less "
+                      "profit without, before its cost; break-even: the cost at which all of it just pays (per "
+                      "unit, for an option usable in part); λ×amount: shadow price × amount, the small-change "
+                      "estimate.[/]")
+        if not any(o["pays"] for o in p.extras["options"]):
+            console.print("No capacity option pays: none adds more profit than it costs.")
         pick = p.extras.get("option_pick")
         if pick is not None:
             c = p.currency

@@ -4,11 +4,10 @@ from __future__ import annotations
 
 from rich.console import Console
 from rich.markup import escape
-from rich.measure import Measurement
 from rich.table import Table
 
 from planner.output.plan import LABOUR_NOTE, Plan, ProductPlan
-from planner.output.text import money, price, qty, table
+from planner.output.text import add_column, display_copy, fit_table, money, price, qty, table
 from planner.scenario.schema import Scenario
 
 
@@ -19,26 +18,6 @@ def status_line(p: Plan) -> str:
     return (f"[bold]{escape(p.scenario)}[/] — {state}\n"
             f"profit [bold]{money(p.profit, p.currency)}[/] per {escape(p.period)} · "
             f"bound {money(p.bound, p.currency)} · gap {p.gap:.2e}")
-
-
-def _fit(build, console: Console | None, optional: list[str]) -> Table:
-    """The first table from ``build(drop)`` that fits the console, dropping ``optional`` columns in order."""
-    drop: set[str] = set()
-    shown = build(drop)
-    if console is None:
-        return shown
-    for col in optional:
-        if Measurement.get(console, console.options.update_width(10_000), shown).maximum <= console.width:
-            break
-        drop.add(col)
-        shown = build(drop)
-    return shown
-
-
-def _add(t: Table, col: str, left: bool = False, name: bool = False) -> None:
-    # Names wrap only as a last resort (after every optional column has been dropped).
-    t.add_column(col, justify="left" if left else "right", no_wrap=not name, overflow="fold",
-                 min_width=min(12, len(col)) if name else None)
 
 
 #: Most product rows printed in the terminal; larger plans show the most profitable (all are in --json).
@@ -81,12 +60,12 @@ def products_table(p: Plan, console: Console | None = None, scenario: Scenario |
     """Products in the plan; narrow consoles drop contribution, then revenue."""
     c = p.currency
 
-    def build(drop: set[str]) -> Table:
+    def build(drop: set[str], width: int | None) -> Table:
         t = table(title)
         cols = [x for x in ("product", "run", "volume", "price", "revenue", "contrib.", "fixed", "profit")
                 if x not in drop]
         for col in cols:
-            _add(t, col, left=col in ("product", "run"), name=col == "product")
+            add_column(t, col, left=col in ("product", "run"), name=col == "product", name_width=width)
         for x in shown_products(p):
             sold = sold_price(x)
             cells = {"product": escape(x.name), "run": run_label(x, scenario), "volume": qty(x.volume),
@@ -96,7 +75,7 @@ def products_table(p: Plan, console: Console | None = None, scenario: Scenario |
             t.add_row(*(cells[k] for k in cols))
         return t
 
-    return _fit(build, console, ["contrib.", "revenue", "fixed"])
+    return fit_table(build, console, ["contrib.", "revenue", "fixed"])
 
 
 def resources_table(p: Plan, console: Console | None = None, title: str = "Resources") -> Table:
@@ -104,12 +83,12 @@ def resources_table(p: Plan, console: Console | None = None, title: str = "Resou
     c = p.currency
     has_range = any(getattr(r, "shadow_price_range", None) for r in p.resources)
 
-    def build(drop: set[str]) -> Table:
+    def build(drop: set[str], width: int | None) -> Table:
         t = table(title)
         cols = [x for x in ("resource", "used", "capacity", "util.", "shadow price", "holds for")
                 if x not in drop and (x != "holds for" or has_range)]
         for col in cols:
-            _add(t, col, left=col == "resource", name=col == "resource")
+            add_column(t, col, left=col == "resource", name=col == "resource", name_width=width)
         for r in p.resources:
             unit = f" {escape(r.unit)}" if r.unit else ""
             mark = " [bold red]◆[/]" if r.binding else ""
@@ -121,19 +100,19 @@ def resources_table(p: Plan, console: Console | None = None, title: str = "Resou
             t.add_row(*(cells[k] for k in cols))
         return t
 
-    return _fit(build, console, ["holds for"])
+    return fit_table(build, console, ["holds for"])
 
 
 def standalone_table(p: Plan, console: Console | None = None) -> Table:
     """Each product's standalone economics (no shared limits)."""
     c = p.currency
 
-    def build(drop: set[str]) -> Table:
+    def build(drop: set[str], width: int | None) -> Table:
         t = table("Standalone economics (no shared limits)")
         cols = [x for x in ("product", "best vol.", "price", "best profit", "max-rev vol.", "break-even")
                 if x not in drop]
         for col in cols:
-            _add(t, col, left=col in ("product", "break-even"), name=col == "product")
+            add_column(t, col, left=col in ("product", "break-even"), name=col == "product", name_width=width)
         for x in shown_products(p):
             s = x.standalone
             be = " – ".join(qty(v) if v is not None else "∞" for v in s.break_even) if s.break_even else "never"
@@ -144,7 +123,7 @@ def standalone_table(p: Plan, console: Console | None = None) -> Table:
             t.add_row(*(cells[k] for k in cols))
         return t
 
-    return _fit(build, console, ["max-rev vol.", "price"])
+    return fit_table(build, console, ["max-rev vol.", "price"])
 
 
 def label_note(p: Plan, scenario: Scenario | None) -> str:
@@ -178,6 +157,7 @@ def chosen_options_table(pick: dict, chosen: Plan) -> Table:
 def print_chosen(pick: dict, chosen: Plan, con: Console, scenario: Scenario | None = None) -> None:
     """The plan with the options chosen together (--choose-options): the options, then its products and
     resources with the options' capacity added.  ``chosen`` is that plan (profit before the options' cost)."""
+    chosen = display_copy(chosen)
     c = chosen.currency
     if not pick["picked"]:
         con.print("No set of capacity options pays: the plan above stands.")
@@ -204,8 +184,11 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True,
     chosen (``chosen``, from --choose-options), standalone economics, notes.
 
     ``scenario`` (optional) tells the 'run' labels apart: must (must_run) or committed (min_volume).
+    Names and texts are shown with control and invisible characters escaped (a name cannot move the
+    cursor or retitle the window); narrow terminals wrap names, then leave columns out and say so.
     """
     con = console or Console()
+    p = display_copy(p)
     con.print(status_line(p))
     con.print()
     con.print(products_table(p, con, scenario))

@@ -25,33 +25,75 @@ __all__ = ["write_report", "ReportContext", "make_context"]
 
 def write_report(plan: Plan, scenario: Scenario, out_dir: str | Path, source: str | Path = "",
                  sweep: dict[str, Any] | None = None, context: ReportContext | None = None) -> dict[str, Path]:
-    """Write report.html, plan.xlsx, plan.json (sweep.json with a sweep) and every chart as PNG and SVG
-    into ``out_dir``.
+    """Write report.html, plan.xlsx, plan.json (sweep.json with a sweep, risk.json with a risk summary)
+    and every chart as PNG and SVG into ``out_dir``.
 
-    Returns the written paths by name ('html', 'xlsx', 'json', 'sweep', 'chart:<key>.png', 'chart:<key>.svg').
-    Nothing is solved here: without ``context`` the report shows what ``plan`` holds.
+    Returns the written paths by name ('html', 'xlsx', 'json', 'sweep', 'risk', 'chart:<key>.png',
+    'chart:<key>.svg').  Nothing is solved here: without ``context`` the report shows what ``plan`` holds.
+
+    All or nothing: every file is made in memory first, then written beside its name and moved into
+    place only when all are complete (:func:`planner.files.write_files`), so a failure leaves the
+    folder as it was.  Pages, charts and the workbook show names with control and invisible characters
+    escaped (:meth:`ReportContext.for_display`); plan.json keeps them exactly (JSON escapes them).
+    Chart files are named by :func:`planner.files.file_stems`: two names never share a file.
     """
-    from planner.files import write_atomic, write_text_atomic
+    from planner.files import make_folder
+    from planner.output.report.charts import quiet_glyphs
+
+    out = make_folder(out_dir, "the report (--out)")
+    with quiet_glyphs():
+        return _write(plan, scenario, out, source, sweep, context)
+
+
+def _write(plan: Plan, scenario: Scenario, out: Path, source: str | Path, sweep: dict[str, Any] | None,
+           context: ReportContext | None) -> dict[str, Path]:
+    import json
+
+    from planner.files import check_target, inside, write_files
     from planner.output.report.charts import all_charts, render
     from planner.output.report.html import render_html
-    from planner.output.report.workbook import write_workbook
+    from planner.output.report.workbook import workbook_bytes
 
-    out = Path(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
     ctx = context or make_context(plan, scenario, source=source, sweep=sweep)
-    charts = all_charts(plan, scenario, ctx.sweep)
-    paths: dict[str, Path] = {}
-    chart_dir = out / "charts"
-    for ch in charts:
-        paths[f"chart:{ch.key}.png"] = write_atomic(chart_dir / f"{ch.key}.png", lambda tmp, ch=ch: render(ch, "png", tmp))
-        paths[f"chart:{ch.key}.svg"] = write_atomic(chart_dir / f"{ch.key}.svg", lambda tmp, ch=ch: tmp.write_bytes(ch.svg()))
-    paths["html"] = write_text_atomic(out / "report.html", render_html(ctx, charts))
-    paths["xlsx"] = write_workbook(ctx, out / "plan.xlsx")
-    paths["json"] = write_text_atomic(out / "plan.json", plan.to_json())
-    if ctx.sweep:
-        import json
+    shown = ctx.for_display()
+    charts = all_charts(shown.plan, shown.scenario, shown.sweep)
+    if shown.risk_result is not None:
+        from planner.output.risk_charts import risk_charts
 
-        paths["sweep"] = write_text_atomic(out / "sweep.json", json.dumps(ctx.sweep, indent=2, allow_nan=False))
-    for ch in charts:
-        ch.figure.clear()
-    return paths
+        charts += risk_charts(shown.risk_result)
+    files: dict[str, tuple[str, bytes]] = {}
+    try:
+        # Every name checked before anything is drawn: a link out of the folder or a pipe at a name
+        # is refused at once.
+        names = [f"charts/{ch.key}.{ext}" for ch in charts for ext in ("png", "svg")]
+        names += ["report.html", "plan.xlsx", "plan.json"] + (["sweep.json"] if ctx.sweep else []) \
+            + (["risk.json"] if ctx.risk else [])
+        for rel in names:
+            check_target(inside(out, rel))
+        for ch in charts:
+            files[f"chart:{ch.key}.png"] = (f"charts/{ch.key}.png", render(ch, "png"))
+            files[f"chart:{ch.key}.svg"] = (f"charts/{ch.key}.svg", ch.svg())
+        files["html"] = ("report.html", render_html(shown, charts).encode("utf-8"))
+        files["xlsx"] = ("plan.xlsx", workbook_bytes(shown))
+        # Exact names in the JSON: a lone surrogate is written as its JSON escape (\udxxx).
+        files["json"] = ("plan.json", ctx.plan.to_json().encode("utf-8", "backslashreplace"))
+        if ctx.sweep:
+            files["sweep"] = ("sweep.json", json.dumps(ctx.sweep, indent=2, allow_nan=False).encode("ascii"))
+        if ctx.risk:
+            files["risk"] = ("risk.json", json.dumps(ctx.risk, indent=2, allow_nan=False,
+                                                     default=_plain).encode("ascii"))
+    finally:
+        for ch in charts:
+            ch.figure.clear()
+    for rel, _ in files.values():
+        inside(out, rel)  # never outside the folder, whatever a name or a link says
+    written = write_files([(out / rel, lambda tmp, data=data: tmp.write_bytes(data)) for rel, data in files.values()])
+    return dict(zip(files, written))
+
+
+def _plain(x: Any) -> Any:
+    import numpy as np
+
+    if isinstance(x, np.generic):
+        return x.item()
+    raise TypeError(f"not JSON serialisable: {type(x).__name__}")

@@ -22,6 +22,9 @@ period; volumes in each product's unit per period.
 from __future__ import annotations
 
 import math
+import textwrap
+import warnings
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -32,13 +35,15 @@ matplotlib.use("Agg")  # never open a window, whatever the environment says
 import numpy as np  # noqa: E402
 from matplotlib import rc_context  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
-from matplotlib.ticker import Formatter, MaxNLocator  # noqa: E402
+from matplotlib.ticker import MaxNLocator  # noqa: E402
 
 from planner.output.plan import Plan, ProductPlan  # noqa: E402
 from planner.scenario.schema import Product  # noqa: E402
-from planner.output.report.fmt import money, num, slug  # noqa: E402
+from planner.files import file_stem, file_stems  # noqa: E402
+from planner.output.report.fmt import money, num, per_unit  # noqa: E402
+from planner.output.report.placement import Label, freeze_layout, place_labels, spread  # noqa: E402
 from planner.output.report.style import PALETTE as C  # noqa: E402
-from planner.output.report.style import RC  # noqa: E402
+from planner.output.report.style import RC, count_axis, money_axis  # noqa: E402
 
 
 @dataclass
@@ -59,44 +64,6 @@ class Chart:
         return self._svg
 
 
-class _Ticks(Formatter):
-    """Tick labels with thousands separators, as many decimals as the tick spacing needs, an optional
-    currency prefix, and k / M for large amounts."""
-
-    def __init__(self, currency: str = "") -> None:
-        self.currency = currency
-        self.decimals = 0
-        self.scale = (1.0, "")
-
-    def set_locs(self, locs) -> None:
-        super().set_locs(locs)
-        locs = sorted(float(x) for x in locs)
-        big = max((abs(x) for x in locs), default=0.0)
-        self.scale = (1e6, "M") if self.currency and big >= 1e6 else (1e3, "k") if self.currency and big >= 1e4 \
-            else (1.0, "")
-        scaled = [x / self.scale[0] for x in locs]
-        step = min((b - a for a, b in zip(scaled, scaled[1:]) if b > a), default=1.0)
-        # The fewest decimals that show every tick exactly (2.5k must not print as 2k).
-        self.decimals = next((k for k in range(7) if all(abs(round(x, k) - x) <= 1e-9 * max(step, 1e-12)
-                                                         for x in scaled)), 6)
-
-    def __call__(self, x, pos=None) -> str:
-        div, suffix = self.scale
-        text = f"{abs(x) / div:,.{self.decimals}f}{suffix if x != 0 else ''}"
-        sign = "-" if x < 0 and text.strip("0.,kM") else ""
-        cur = self.currency
-        sep = " " if cur and cur[-1].isalnum() else ""
-        return f"{sign}{cur}{sep}{text}" if cur else f"{sign}{text}"
-
-
-def _money_axis(ax, currency: str, axis: str = "y") -> None:
-    (ax.yaxis if axis == "y" else ax.xaxis).set_major_formatter(_Ticks(currency))
-
-
-def _thousands_axis(ax, axis: str = "x") -> None:
-    (ax.xaxis if axis == "x" else ax.yaxis).set_major_formatter(_Ticks())
-
-
 def _volume_range(sp: Product, pp: ProductPlan) -> float:
     """Right end of the volume axis (units): where demand's price reaches 0, or a sensible span for fixed prices."""
     a, b = sp.price_intercept, sp.price_slope
@@ -107,8 +74,10 @@ def _volume_range(sp: Product, pp: ProductPlan) -> float:
     return 1.25 * max(known) if known else 100.0
 
 
-def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str) -> Chart:
-    """Revenue, total cost and profit of one product against volume, with its key volumes marked."""
+def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str, key: str | None = None) -> Chart:
+    """Revenue, total cost and profit of one product against volume, with its key volumes marked and
+    labelled with their values (labels placed clear of each other).  ``key``: the file stem (default
+    ``product-`` and the name's :func:`planner.files.file_stem`; a report passes stems kept apart)."""
     a, b, v, F = sp.price_intercept, sp.price_slope, sp.unit_cost, sp.fixed_cost
     s = pp.standalone
     unit = pp.unit or "units"
@@ -134,14 +103,15 @@ def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str) -> C
         # Far beyond the optimum the profit curve plunges; keep the view on the region that matters.
         ymin = float(min(0.0, max(profit.min(), -0.6 * ymax), -F, pp.profit))
 
-        def mark(gid, xs, ys, marker, color, size, label, texts, offset=(6, 7)):
+        labels: list[Label] = []
+
+        def mark(gid, xs, ys, marker, color, size, label, texts):
             line, = ax.plot(xs, ys, ls="none", marker=marker, ms=size, color=color, mec=C["ink"], mew=0.8,
                             zorder=5, label=label)
             line.set_gid(gid)
             marked.append(line)
-            for x, y, t in zip(xs, ys, texts):
-                ax.annotate(t, (x, y), xytext=offset, textcoords="offset points", fontsize=8, color=C["ink"],
-                            zorder=6, bbox={"boxstyle": "round,pad=0.15", "fc": C["paper"], "ec": "none", "alpha": 0.8})
+            labels.extend(Label(x, y, t, f"{gid.removeprefix('mark-')}-{k}", size)
+                          for k, (x, y, t) in enumerate(zip(xs, ys, texts)))
 
         be = [x for x in s.break_even if x is not None]
         if be:
@@ -168,23 +138,29 @@ def product_chart(pp: ProductPlan, sp: Product, currency: str, period: str) -> C
         else:
             marks["mix"] = (0.0, pp.profit)
             mark("mark-mix", [0.0], [pp.profit], "X", C["off"], 11,
-                 f"in the mix: shut down (saves the fixed cost {money(F, currency)})", ["shut down"],
-                 offset=(7, -15))
+                 f"in the mix: shut down (saves the fixed cost {money(F, currency)})", ["shut down"])
         ax.set_xlim(0, xmax)
         pad = 0.06 * (ymax - ymin or 1.0)
         ax.set_ylim(ymin - pad, ymax + 2.2 * pad)
-        ax.set_xlabel(f"volume ({unit} per {period})")
-        ax.set_ylabel(f"amount ({currency} per {period})")
-        _money_axis(ax, currency)
-        _thousands_axis(ax)
-        ax.set_title(pp.name)
-        ax.add_artist(ax.legend(handles=curves, loc="upper right", handlelength=2.2, fontsize=8,
-                                facecolor=C["paper"], framealpha=0.85, frameon=True, edgecolor="none"))
+        ax.set_xlabel(wrap_label(f"volume ({unit} per {period})", 70, 2))
+        ax.set_ylabel(wrap_label(f"amount ({currency} per {period})", 50, 2))
+        money_axis(ax, currency)
+        count_axis(ax)
+        ax.set_title(wrap_label(pp.name, 46, 2))
+        key_legend = ax.legend(handles=curves, loc="upper right", handlelength=2.2, fontsize=8,
+                               facecolor=C["paper"], framealpha=0.85, frameon=True, edgecolor="none")
+        ax.add_artist(key_legend)
         fig.legend(handles=marked, loc="outside lower left", ncols=1, handlelength=1.6, fontsize=8.8)
-    caption = (f"{pp.name}: price {money(a, currency, 2)} − {b:g} × volume per {unit}; variable cost "
-               f"{money(v, currency, 2)} per {unit}; fixed cost {money(F, currency)} per {period} "
+        renderer = freeze_layout(fig)
+        # The mix's point first: it matters most; the others keep clear of it and of each other.
+        order = {"mix": 0, "standalone-optimum": 1, "max-revenue": 2, "break-even": 3}
+        labels.sort(key=lambda lb: order.get(lb.gid.rsplit("-", 1)[0], 9))
+        place_labels(ax, renderer, labels, obstacles=[key_legend.get_window_extent(renderer)])
+    one = per_unit(pp.unit)
+    caption = (f"{pp.name}: price {money(a, currency, 2)} − {b:g} × volume per {one}; variable cost "
+               f"{money(v, currency, 2)} per {one}; fixed cost {money(F, currency)} per {period} "
                "(avoided only by shutting the product down). Standalone values ignore shared limits.")
-    return Chart(key=f"product-{slug(pp.name)}", title=f"{pp.name}: revenue, cost and profit against volume",
+    return Chart(key=key or f"product-{file_stem(pp.name)}", title=f"{pp.name}: revenue, cost and profit against volume",
                  caption=caption, figure=fig, marks=marks)
 
 
@@ -193,52 +169,72 @@ MAX_MIX_BARS = 30
 
 
 def mix_chart(plan: Plan) -> Chart:
-    """Each product's volume and profit in the plan; shut-down products marked as such."""
+    """Each product's volume and profit in the plan; shut-down products marked as such.
+
+    Volumes in different units are never drawn on one axis: products are grouped by unit, one volume
+    axis per unit (small multiples, in the order the units first appear), beside one shared profit axis.
+    """
     shown = _top_products(plan, MAX_MIX_BARS)
-    prods = list(reversed(shown))  # first product at the top
-    names = [p.name for p in prods]
-    y = np.arange(len(prods))
-    units = {p.unit for p in shown}
-    vol_label = f"volume ({units.pop()} per {plan.period})" if len(units) == 1 else f"volume (each product's unit, per {plan.period})"
+    groups: dict[str, list[ProductPlan]] = {}
+    for p in shown:
+        groups.setdefault(p.unit or "units", []).append(p)
+    cur = plan.currency
+    profits_all = [p.profit for p in shown]
+    pmin, pmax = min(profits_all + [0.0]), max(profits_all + [1.0])
     with rc_context({**RC, "axes.grid.axis": "x"}):
-        fig = Figure(figsize=(9.0, 0.5 * len(prods) + 1.6), layout="constrained")
-        ax_v, ax_p = fig.subplots(1, 2, sharey=True, gridspec_kw={"wspace": 0.05})
-        vols = [p.volume for p in prods]
-        profits = [p.profit for p in prods]
-        ax_v.barh(y, vols, color=[C["revenue"] if p.running else C["off"] for p in prods], height=0.62)
-        colours = [C["off"] if not p.running else (C["profit"] if p.profit >= 0 else C["cost"]) for p in prods]
-        ax_p.barh(y, profits, color=colours, height=0.62)
-        vmax = max(vols + [1.0])
-        pmin, pmax = min(profits + [0.0]), max(profits + [1.0])
-        for k, p in enumerate(prods):
-            if p.running:
-                ax_v.text(p.volume + 0.01 * vmax, k, f"{num(p.volume)} {p.unit}", va="center", fontsize=8.5)
-                ax_p.text(p.profit + 0.01 * (pmax - pmin) if p.profit >= 0 else p.profit - 0.01 * (pmax - pmin), k,
-                          money(p.profit, plan.currency), va="center", ha="left" if p.profit >= 0 else "right",
-                          fontsize=8.5)
+        extra = 0.75 * (len(groups) - 1)
+        fig = Figure(figsize=(9.0, 0.5 * len(shown) + 1.6 + extra), layout="constrained")
+        gs = fig.add_gridspec(len(groups), 2, height_ratios=[len(g) + 0.6 for g in groups.values()], wspace=0.05)
+        first_p = None
+        for row, (unit, members) in enumerate(groups.items()):
+            prods = list(reversed(members))  # first product at the top
+            y = np.arange(len(prods))
+            ax_v = fig.add_subplot(gs[row, 0])
+            ax_p = fig.add_subplot(gs[row, 1], sharey=ax_v, sharex=first_p)
+            first_p = first_p or ax_p
+            ax_v.set_gid(f"mix-volume-{row}")
+            vols = [p.volume for p in prods]
+            ax_v.barh(y, vols, color=[C["revenue"] if p.running else C["off"] for p in prods], height=0.62)
+            colours = [C["off"] if not p.running else (C["profit"] if p.profit >= 0 else C["cost"]) for p in prods]
+            ax_p.barh(y, [p.profit for p in prods], color=colours, height=0.62)
+            vmax = max(vols + [1.0])
+            for k, p in enumerate(prods):
+                if p.running:
+                    ax_v.text(p.volume + 0.01 * vmax, k, f"{num(p.volume)} {p.unit}", va="center", fontsize=8.5)
+                    ax_p.text(p.profit + 0.01 * (pmax - pmin) if p.profit >= 0 else p.profit - 0.01 * (pmax - pmin),
+                              k, money(p.profit, cur), va="center", ha="left" if p.profit >= 0 else "right",
+                              fontsize=8.5)
+                else:
+                    for ax in (ax_v, ax_p):
+                        ax.text(0.01, k, "shut down", transform=ax.get_yaxis_transform(), va="center",
+                                fontsize=8.5, color=C["muted"], style="italic")
+            ax_v.set_yticks(y, [wrap_label(p.name + (" (must run)" if p.must_run else "")) for p in prods])
+            ax_v.set_ylim(-0.6, len(prods) - 0.4)
+            ax_v.set_xlim(0, vmax * 1.28)
+            ax_p.axvline(0, color=C["muted"], lw=0.9)
+            ax_v.set_xlabel(f"volume ({unit} per {plan.period})")
+            count_axis(ax_v)
+            ax_v.xaxis.set_major_locator(MaxNLocator(4))
+            ax_p.tick_params(axis="y", length=0, labelleft=False)
+            if row == 0:
+                ax_v.set_title("Volume in the mix")
+                ax_p.set_title("Profit by product")
+            if row < len(groups) - 1:
+                ax_p.tick_params(axis="x", labelbottom=False)
             else:
-                for ax in (ax_v, ax_p):
-                    ax.text(0.01, k, "shut down", transform=ax.get_yaxis_transform(), va="center",
-                            fontsize=8.5, color=C["muted"], style="italic")
-        ax_v.set_yticks(y, [n + ("  (must run)" if p.must_run else "") for n, p in zip(names, prods)])
-        ax_v.set_xlim(0, vmax * 1.28)
-        ax_p.set_xlim(min(pmin * 1.3, 0), pmax * 1.32)
-        ax_p.axvline(0, color=C["muted"], lw=0.9)
-        ax_v.set_xlabel(vol_label)
-        ax_p.set_xlabel(f"profit after its fixed cost ({plan.currency} per {plan.period})")
-        _thousands_axis(ax_v)
-        _money_axis(ax_p, plan.currency, axis="x")
-        ax_p.xaxis.set_major_locator(MaxNLocator(5))
-        ax_v.set_title("Volume in the mix")
-        ax_p.set_title("Profit by product")
-        ax_p.tick_params(axis="y", length=0)
+                ax_p.set_xlabel(f"profit after its fixed cost ({cur} per {plan.period})")
+        first_p.set_xlim(min(pmin * 1.3, 0), pmax * 1.32)
+        money_axis(first_p, cur, axis="x")
+        first_p.xaxis.set_major_locator(MaxNLocator(4 if len(cur) < 3 else 3))
     return Chart(key="mix", title="The mix: volume and profit by product",
                  caption=(("" if len(shown) == len(plan.products) else
                            f"The {len(shown)} most profitable of {len(plan.products)} products "
                            f"({sum(not p.running for p in plan.products)} shut down in all); the tables list every "
                            "product. ")
                           + "Bars for running products; shut-down products make nothing and pay no fixed cost. "
-                          f"Total profit {money(plan.profit, plan.currency)} after the plant-wide fixed cost "
+                          + (f"Volumes in {len(groups)} units ({', '.join(groups)}): each unit has an axis of its "
+                             "own. " if len(groups) > 1 else "")
+                          + f"Total profit {money(plan.profit, plan.currency)} after the plant-wide fixed cost "
                           f"{money(plan.plant_fixed_cost, plan.currency)}."),
                  figure=fig)
 
@@ -260,15 +256,14 @@ def resources_chart(plan: Plan) -> Chart:
         ax_u.axvline(100, color=C["ink"], lw=1.0)
         ax_u.set_xlim(0, 150)
         ax_u.set_xticks([0, 25, 50, 75, 100])
-        ax_u.set_yticks(y, [r.name + ("  ◆ binding" if r.binding else "") for r in res])
+        ax_u.set_yticks(y, [wrap_label(r.name) + ("  ◆ binding" if r.binding else "") for r in res])
         ax_u.set_xlabel("utilisation (% of capacity used)")
         ax_u.set_title("Utilisation")
         sps = [r.shadow_price for r in res]
         smax = max(sps + [1e-9])
         ax_s.barh(y, sps, color=[C["accent"] if r.shadow_price > 0 else C["off"] for r in res], height=0.62)
         for k, r in enumerate(res):
-            per = r.unit or "unit"
-            text = f"{money(r.shadow_price, cur, 2)} per {per}" if r.shadow_price > 0 else "0 (spare capacity)"
+            text = f"{money(r.shadow_price, cur, 2)} per {per_unit(r.unit)}" if r.shadow_price > 0 else "0 (spare capacity)"
             rng = getattr(r, "shadow_price_range", None)
             if r.shadow_price > 0 and rng and len(rng) == 2 and all(x is not None for x in rng):
                 text += f"\nholds {num(rng[0])}–{num(rng[1])} {r.unit}".rstrip()
@@ -277,7 +272,7 @@ def resources_chart(plan: Plan) -> Chart:
         ax_s.set_xlabel(f"shadow price ({cur} of profit per extra unit)")
         ax_s.set_title("Shadow price")
         ax_s.tick_params(axis="y", length=0)
-        _money_axis(ax_s, cur, axis="x")
+        money_axis(ax_s, cur, axis="x")
         ax_s.xaxis.set_major_locator(MaxNLocator(4))
     return Chart(key="resources", title="Resources: utilisation and shadow prices",
                  caption=("A shadow price is the profit one more unit of a resource would add, for a small change; "
@@ -315,7 +310,7 @@ def sweep_chart(sweep: dict[str, Any], plan: Plan) -> Chart:
     bps = sorted(sweep.get("breakpoints", []), key=lambda b: b["capacity"])
     cur = plan.currency
     with rc_context(RC):
-        fig = Figure(figsize=(8.6, 5.8 + 0.17 * min(len(bps), MAX_SWEEP_NOTES)), layout="constrained")
+        fig = Figure(figsize=(8.6, 5.8), layout="constrained")
         ax_p, ax_s = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [1.5, 1]})
         ax_p.plot(caps, prof, color=C["profit"], lw=2.2)
         ax_p.plot([p["capacity"] for p in pts], [p["profit"] for p in pts], ls="none", marker="o", ms=3.5,
@@ -338,39 +333,92 @@ def sweep_chart(sweep: dict[str, Any], plan: Plan) -> Chart:
                       color=C["ink"], fontsize=8.5, va="bottom")
         notes = []
         for k, bp in enumerate(bps, start=1):
-            x = bp["capacity"] if bp.get("after") is None else 0.5 * (bp["after"] + bp["capacity"])
-            ax_p.text(x, 0.97 - 0.07 * ((k - 1) % 2), str(k), transform=ax_p.get_xaxis_transform(), fontsize=7.5,
-                      color=C["panel"], ha="center", va="top", fontweight="bold",
-                      bbox={"boxstyle": "circle,pad=0.2", "fc": C["cost"], "ec": "none"})
             where = (f"{num(bp['after'])}–{num(bp['capacity'])}" if bp.get("after") is not None
                      else num(bp["capacity"]))
-            notes.append(f"{k}  {where} {unit}: {_short(str(bp.get('change', '')), 70)}")
+            notes.append(textwrap.fill(f"{k}  {where} {unit}: {bp.get('change', '')}", NOTE_WIDTH,
+                                       subsequent_indent="     ", break_on_hyphens=False))
+        lines = 0
         if notes:
             shown = notes[:MAX_SWEEP_NOTES]
             if len(notes) > len(shown):
-                shown.append(f"… and {len(notes) - len(shown)} more (listed in the report and the workbook)")
-            fig.text(0.0, 0.0, "\n".join(shown), fontsize=8.2, color=C["ink"], va="bottom", ha="left",
-                     linespacing=1.45)
-            # Keep the axes above the notes: each line is about 0.2 inch at this size.
-            bottom = min(0.45, (0.2 * len(shown) + 0.1) / fig.get_figheight())
+                shown.append(f"and {len(notes) - len(shown)} more, listed in the report and the workbook")
+            text = "\n".join(shown)
+            lines = text.count("\n") + 1
+            fig.set_figheight(5.8 + 0.17 * lines)
+            fig.text(0.0, 0.0, text, fontsize=8.2, color=C["ink"], va="bottom", ha="left", linespacing=1.45)
+            # Keep the axes above the notes: each line is 8.2 pt × 1.45, about 0.17 inch.
+            bottom = min(0.6, (0.17 * lines + 0.12) / fig.get_figheight())
             fig.get_layout_engine().set(rect=(0, bottom, 1, 1 - bottom))
         ax_p.set_ylabel(f"optimal profit ({cur} per {plan.period})")
-        ax_s.set_ylabel(f"shadow price ({cur} per {unit or 'unit'})")
-        ax_s.set_xlabel(f"capacity of {name} ({unit or 'units'} per {plan.period})")
-        _money_axis(ax_p, cur)
-        _money_axis(ax_s, cur)
-        _thousands_axis(ax_s)
-        ax_p.set_title(f"Capacity sweep: {name}")
-    return Chart(key=f"sweep-{slug(name)}", title=f"Capacity sweep of {name}",
+        ax_s.set_ylabel(f"shadow price ({cur} per {per_unit(unit)})")
+        ax_s.set_xlabel(wrap_label(f"capacity of {name} ({unit or 'units'} per {plan.period})", 90, 2))
+        money_axis(ax_p, cur)
+        money_axis(ax_s, cur)
+        count_axis(ax_s)
+        ax_p.set_title(wrap_label(f"Capacity sweep: {name}", 80, 2))
+        _number_changes(fig, ax_p, bps, prof)
+    return Chart(key=f"sweep-{file_stem(name)}", title=f"Capacity sweep of {name}",
                  caption=("Each dot is a full re-solve at that capacity. Numbered dashed lines: the slate, a binding "
                           "limit or the bottleneck changes there (shaded bands where the points were only sampled "
                           "and the change lies between them). The solid line is today's capacity."),
                  figure=fig, marks={"breakpoints": [bp["capacity"] for bp in bps]})
 
 
-def _short(text: str, limit: int = 38) -> str:
-    """A label cut to ``limit`` characters with an ellipsis (the full text is in the tables)."""
-    return text if len(text) <= limit else text[: limit - 1].rstrip(" ,;") + "…"
+#: Characters per line of the notes under the sweep chart (long changes wrap; nothing is cut).
+NOTE_WIDTH = 110
+#: Height (axes fraction) of one row of numbered badges above the sweep's profit curve.
+BADGE_ROW = 0.085
+
+
+def _number_changes(fig, ax, bps: list[dict[str, Any]], profits: list[float]) -> None:
+    """Number the change points with badges along the top of ``ax``, at least a badge apart (in as many
+    rows as they need, neighbours in different rows), each joined to its capacity by a leader line;
+    the profit axis gets room above the curve for them."""
+    if not bps:
+        return
+    xs = [bp["capacity"] if bp.get("after") is None else 0.5 * (bp["after"] + bp["capacity"]) for bp in bps]
+    width_pt = fig.get_figwidth() * 72 * 0.85
+    badge_pt = 15.0
+    rows = max(1, math.ceil(len(bps) * badge_pt * 1.2 / (width_pt - badge_pt)))
+    finite = [y for y in profits if y is not None and not math.isnan(y)] or [0.0]
+    lo, hi = min(finite), max(finite)
+    span = (hi - lo) or max(abs(hi), 1.0)
+    room = BADGE_ROW * rows + 0.03
+    bottom = lo - 0.05 * span
+    ax.set_ylim(bottom, bottom + (hi + 0.04 * span - bottom) / (1 - room))
+    renderer = freeze_layout(fig)
+    frame = ax.get_window_extent(renderer)
+    px = renderer.points_to_pixels(1.0)
+    gap = badge_pt * 1.2 * px
+    wish = [float(ax.transData.transform((x, 0))[0]) for x in xs]
+    order = sorted(range(len(xs)), key=lambda k: wish[k])
+    place = [0.0] * len(xs)
+    for r in range(rows):
+        members = order[r::rows]
+        for k, pos in zip(members, spread([wish[k] for k in members], gap, frame.x0 + gap / 2, frame.x1 - gap / 2)):
+            place[k] = pos
+    for rank, k in enumerate(order):
+        row = rank % rows
+        fx = (place[k] - frame.x0) / frame.width
+        fy = 0.985 - BADGE_ROW * row
+        ann = ax.annotate(str(k + 1), xy=(xs[k], fy - BADGE_ROW * 0.75), xycoords=ax.get_xaxis_transform(),
+                          xytext=(fx, fy), textcoords="axes fraction", fontsize=7.5, color=C["panel"],
+                          ha="center", va="top", fontweight="bold", zorder=7,
+                          bbox={"boxstyle": "circle,pad=0.2", "fc": C["cost"], "ec": "none"},
+                          arrowprops={"arrowstyle": "-", "color": C["cost"], "lw": 0.8, "shrinkA": 0, "shrinkB": 0})
+        ann.set_gid(f"badge-{k + 1}")
+
+
+def wrap_label(text: str, width: int = 28, lines: int = 3) -> str:
+    """A name for an axis label, wrapped at spaces onto at most ``lines`` lines of ``width`` characters
+    (cut with '…' only beyond that; the full name is in the tables)."""
+    import textwrap
+
+    parts = textwrap.wrap(text, width, break_long_words=True, break_on_hyphens=False) or [text]
+    if len(parts) > lines:
+        parts = parts[:lines]
+        parts[-1] = parts[-1][: width - 1].rstrip() + "…"
+    return "\n".join(parts)
 
 
 def all_charts(plan: Plan, scenario, sweep: dict[str, Any] | None = None) -> list[Chart]:
@@ -381,7 +429,10 @@ def all_charts(plan: Plan, scenario, sweep: dict[str, Any] | None = None) -> lis
     if sweep and sweep.get("points"):
         charts.append(sweep_chart(sweep, plan))
     by_name = {p.name: p for p in scenario.products}
-    charts += [product_chart(pp, by_name[pp.name], plan.currency, plan.period) for pp in charted_products(plan)]
+    shown = charted_products(plan)
+    stems = file_stems([pp.name for pp in shown])  # two names never share a file, whatever their spelling
+    charts += [product_chart(pp, by_name[pp.name], plan.currency, plan.period, key=f"product-{stem}")
+               for pp, stem in zip(shown, stems)]
     return charts
 
 
@@ -404,6 +455,15 @@ def _top_products(plan: Plan, limit: int) -> list[ProductPlan]:
                                                                     (x.standalone.max_profit or 0.0))))
     keep = {id(x) for x in ranked[:limit]}
     return [x for x in plan.products if id(x) in keep]
+
+
+@contextmanager
+def quiet_glyphs():
+    """A context in which matplotlib does not warn about characters its font lacks (they are drawn as
+    boxes; the tables and the workbook show every name whole)."""
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message=r"Glyph \d+ .*missing from font")
+        yield
 
 
 def render(chart: Chart, fmt: str, path=None, dpi: int = 150) -> bytes | None:

@@ -7,7 +7,7 @@ from typing import Any
 
 from planner.output.text import money
 
-__all__ = ["changes_text", "money", "num", "option_share", "option_slate", "pct", "slug"]
+__all__ = ["changes_text", "money", "num", "option_share", "option_slate", "pct", "per_unit", "slug"]
 
 
 def num(x: float | None, decimals: int | None = None) -> str:
@@ -28,9 +28,56 @@ def pct(x: float, decimals: int = 0) -> str:
 
 
 def slug(name: str) -> str:
-    """A file-name-safe form of a name: 'oak bookcase' -> 'oak-bookcase'."""
-    s = re.sub(r"[^A-Za-z0-9]+", "-", name).strip("-").lower()
-    return s or "item"
+    """A file-name-safe form of one name: 'oak bookcase' -> 'oak-bookcase' (:func:`planner.files.file_stem`).
+    Several names that become files together go through :func:`planner.files.file_stems`, which keeps
+    them apart."""
+    from planner.files import file_stem
+
+    return file_stem(name)
+
+
+#: Words ending in 's' that are singular ('per lens' reads right as it is).
+_SINGULAR_S = frozenset({"lens", "series", "species", "news", "means", "gas", "bus", "chassis", "corps",
+                         "physics", "logistics", "kudos"})
+#: Plurals with no singular of their own ('per unit (scissors)').
+_PLURAL_ONLY = frozenset({"glasses", "scissors", "trousers", "pliers", "tongs", "shears", "goods", "jeans"})
+#: Abbreviated plurals.
+_SHORT = {"pcs": "pc", "hrs": "hr", "mins": "min", "secs": "sec", "lbs": "lb", "yds": "yd", "kgs": "kg",
+          "qtys": "qty", "ctns": "ctn", "pkgs": "pkg"}
+
+
+def _singular(word: str) -> str | None:
+    """The singular of a regular English plural (letters only), None if it is not one."""
+    low = word.lower()
+    if low in _SHORT:
+        one = _SHORT[low]
+    elif (not re.fullmatch(r"[a-z]{4,}", low) or low in _SINGULAR_S or low in _PLURAL_ONLY
+          or not low.endswith("s") or low.endswith(("ss", "us", "is", "ous"))):
+        return None
+    elif low.endswith("ies") and len(low) > 4:
+        one = low[:-3] + "y"
+    elif low.endswith(("ches", "shes", "xes", "zes", "sses")):
+        one = low[:-2]
+    else:
+        one = low[:-1]
+    return word[: len(one)] if word[: len(one)].lower() == one else one
+
+
+def per_unit(unit: str) -> str:
+    """What follows 'per' for a unit: the singular of a plain English plural ('pieces' -> 'piece',
+    'boxes' -> 'box', 'sheets of board' -> 'sheet of board', 'pcs' -> 'pc'); a unit that is not a
+    plural as it is ('h', 'kg', 'm³', 'lens'); any other plural as 'unit (glasses)'.  '' gives 'unit'."""
+    unit = (unit or "").strip()
+    if not unit:
+        return "unit"
+    first, _, rest = unit.partition(" ")
+    one = _singular(first)
+    if one is not None and (not rest or rest.startswith("of ")):
+        return f"{one} {rest}".rstrip()
+    low = first.lower()
+    if one is not None or low in _PLURAL_ONLY:
+        return f"unit ({unit})"
+    return unit
 
 
 def option_slate(option: dict[str, Any]) -> Any:

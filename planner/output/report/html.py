@@ -14,8 +14,9 @@ from typing import Any
 
 from planner.output.plan import LABOUR_NOTE
 from planner.output.report.charts import Chart
-from planner.output.report.context import ReportContext
-from planner.output.report.fmt import changes_text, money, num, option_share, option_slate, pct
+from planner.output.report.context import ReportContext, option_pays
+from planner.output.report.fmt import changes_text, money, num, option_share, option_slate, pct, per_unit
+from planner.output.report.riskview import risk_section, risk_sentence
 from planner.output.report.style import CSS
 
 
@@ -67,15 +68,18 @@ def _summary(ctx: ReportContext) -> str:
         _card("Products running", f"{len(running)} of {len(p.products)}",
               ("shut down: " + ", ".join(x.name for x in stopped)) if stopped else "every product runs"),
         _card("Binding limits", str(len(binding)) if binding else "none",
-              "; ".join(f"{r.name} ({money(r.shadow_price, c, 2)}/{r.unit or 'unit'})" for r in binding)
+              "; ".join(f"{r.name} ({money(r.shadow_price, c, 2)} per {per_unit(r.unit)})" for r in binding)
               or "every resource has spare capacity", warn=bool(binding)),
     ]
-    best = ctx.best_option
-    if best is not None:
-        verdict = "pays" if best["net_gain"] > 0 else "none pays"
-        cards.append(_card("Best capacity option", best["name"],
-                           f"net gain {money(best['net_gain'], c)} per {p.period} ({verdict})",
-                           warn=best["net_gain"] <= 0))
+    best, paying = ctx.best_option, ctx.paying_option
+    if paying is not None:
+        cards.append(_card("Best capacity option", paying["name"],
+                           f"net gain {money(paying['net_gain'], c)} per {p.period} (pays)"))
+    elif best is not None:
+        n = len([o for o in ctx.options if o.get("net_gain") is not None])
+        cards.append(_card("Best capacity option", "No option pays",
+                           f"none of the {n} options valued adds more profit than it costs" if n > 1 else
+                           "the option valued adds no more profit than it costs", warn=True))
     points = []
     if running:
         top = max(running, key=lambda x: x.profit)
@@ -87,14 +91,20 @@ def _summary(ctx: ReportContext) -> str:
                       "costs here, or the capacity they would use earns more in other products.")
     if binding:
         r = binding[0]
-        points.append(f"The bottleneck is <b>{escape(r.name)}</b>: one more {escape(r.unit or 'unit')} is worth "
+        points.append(f"The bottleneck is <b>{escape(r.name)}</b>: one more {escape(per_unit(r.unit))} is worth "
                       f"{escape(money(r.shadow_price, c, 2))} of profit, for a small change. Larger additions "
                       "(a shift) are valued by re-solving, below.")
-    if best is not None:
-        changes = changes_text(option_slate(best))
-        points.append(f"Best capacity option: <b>{escape(best['name'])}</b>, gain "
-                      f"{escape(money(best.get('gain', 0.0), c))} for a cost of {escape(money(best.get('cost', 0.0), c))}"
-                      f" (net {escape(money(best['net_gain'], c))})" + (f"; {escape(changes)}" if changes else "") + ".")
+    if paying is not None:
+        changes = changes_text(option_slate(paying))
+        points.append(f"Best capacity option: <b>{escape(paying['name'])}</b>, gain "
+                      f"{escape(money(paying.get('gain', 0.0), c))} for a cost of "
+                      f"{escape(money(paying.get('cost', 0.0), c))} (net {escape(money(paying['net_gain'], c))})"
+                      + (f"; {escape(changes)}" if changes else "") + ".")
+    elif best is not None:
+        points.append("No capacity option pays: none adds more profit than it costs, so today's capacity stays "
+                      "(the options table shows each one's break-even).")
+    if ctx.risk:
+        points.append(risk_sentence(ctx))
     for w in p.warnings:
         points.append(f"Warning: {escape(w)}")
     items = "".join(f"<li>{x}</li>" for x in points)
@@ -152,7 +162,7 @@ def _resources(ctx: ReportContext) -> str:
     rows = []
     for r in p.resources:
         u = f" {r.unit}" if r.unit else ""
-        sp = f"{money(r.shadow_price, c, 2)} per {r.unit or 'unit'}" if r.shadow_price > 0 else "0"
+        sp = f"{money(r.shadow_price, c, 2)} per {per_unit(r.unit)}" if r.shadow_price > 0 else "0"
         cells = [escape(r.name), escape(num(r.used) + u), escape(num(r.capacity) + u), escape(pct(r.utilisation)),
                  escape(sp)]
         if has_range:
@@ -167,8 +177,8 @@ def _options(ctx: ReportContext) -> str:
     if not ctx.options:
         return ""
     c, per = ctx.currency, ctx.plan.period
-    head = [("option", False), ("adds", False), ("cost", True), ("profit with it", True), ("gain", True),
-            ("net gain", True), ("slate changes", False)]
+    head = [("option", False), ("adds", False), ("rate", True), ("cost", True), ("profit with it", True),
+            ("gain", True), ("net gain", True), ("break-even", True), ("slate changes", False)]
     rows = []
     for o in sorted(ctx.options, key=lambda o: -(o.get("net_gain") or 0.0)):
         adds = o.get("adds") or {}
@@ -177,17 +187,28 @@ def _options(ctx: ReportContext) -> str:
         share = option_share(o)
         if share is not None:
             adds_text += f" (best use: {pct(share)} of it)"
+        rate, unit = ctx.option_rate(o)
+        one = per_unit(unit)
+        rate_text = f"{money(rate, c, 2)} per {one}" if rate is not None else "one price"
+        if o.get("kind") == "part" and o.get("break_even_cost_per_unit") is not None:
+            be = f"{money(o['break_even_cost_per_unit'], c, 2)} per {one}"
+        elif o.get("break_even_cost") is not None:
+            be = money(o["break_even_cost"], c)
+        else:
+            be = "—"
         net = o.get("net_gain")
-        rows.append(("bind" if net is not None and net > 0 else "", [
-            escape(o.get("name", "")), escape(adds_text), escape(money(o.get("cost", 0.0), c)),
+        rows.append(("bind" if option_pays(o, ctx.plan.profit) else "", [
+            escape(o.get("name", "")), escape(adds_text), escape(rate_text), escape(money(o.get("cost", 0.0), c)),
             escape(money(o["profit_with"], c)) if o.get("profit_with") is not None else "—",
             escape(money(o.get("gain", 0.0), c)), f"<b>{escape(money(net, c))}</b>" if net is not None else "—",
-            escape(changes_text(option_slate(o)) or "none")]))
+            escape(be), escape(changes_text(option_slate(o)) or "none")]))
     src = ("Valued by the capacity analysis." if ctx.options_source == "capacity analysis" else
            "Each option valued on its own by re-solving the plan with it; options usable in part were tried at "
            "25 %, 50 %, 75 % and 100 % of their amount.")
     note = (f'<p class="note">Amounts per {escape(per)}. Gain = profit with the option − profit today; net gain = '
-            f"gain − the option's cost. {escape(src)} {escape(LABOUR_NOTE)}</p>")
+            "gain − the option's cost. Rate: the cost per unit of an option usable in part (an all-or-nothing "
+            "option has one price). Break-even: the most the whole option may cost and still pay; for an option "
+            f"usable in part, the most it may cost per unit. {escape(src)} {escape(LABOUR_NOTE)}</p>")
     return f'<section id="options"><h2>Capacity options</h2>{_table(head, rows)}{note}</section>'
 
 
@@ -243,6 +264,7 @@ def render_html(ctx: ReportContext, charts: list[Chart]) -> str:
             f"{_products(ctx)}{_resources(ctx)}{_options(ctx)}"
             f'<section id="charts"><h2>The plan in charts</h2>{top}</section>'
             f"{sweep_html}"
+            f"{risk_section(ctx, ''.join(_figure(ch) for ch in charts if ch.key.startswith('risk-')))}"
             f'<section id="economics"><h2>Each product: revenue, cost and profit against volume</h2>'
             f'<p class="note">Over the whole demand range (up to the volume at which the price reaches zero), with '
             f"the volume the mix gives each product.{omitted}</p>"

@@ -1,4 +1,5 @@
-"""The report's own look: one palette and one set of chart settings, used by every chart and the HTML page.
+"""The report's own look: one palette, one set of chart settings and one way of labelling axes, used by
+every chart (the report's and ``planner risk --charts``) and the HTML page.
 
 Colours are chosen for contrast on a warm paper background and stay apart for
 the common forms of colour blindness (no red/green pair carries meaning alone:
@@ -6,6 +7,8 @@ every mark is labelled with text too).
 """
 
 from __future__ import annotations
+
+from matplotlib.ticker import Formatter
 
 #: Named colours (hex) used across charts and the HTML page.
 PALETTE = {
@@ -46,9 +49,50 @@ RC = {
     "text.color": PALETTE["ink"],
     "legend.frameon": False,
     "legend.fontsize": 8.5,
+    "text.parse_math": False,  # a '$' in a name or a currency is text, never the start of a formula
     "svg.fonttype": "path",   # glyphs as paths: the SVG looks the same without the font installed
     "svg.hashsalt": "planner",  # stable ids, so the same plan gives the same SVG
 }
+
+def money_axis(ax, currency: str, axis: str = "y") -> None:
+    """Tick labels of ``axis`` as amounts: '€250k', '-€1.5M'."""
+    (ax.yaxis if axis == "y" else ax.xaxis).set_major_formatter(Ticks(currency))
+
+
+def count_axis(ax, axis: str = "x") -> None:
+    """Tick labels of ``axis`` as quantities with thousands separators: '2,500'."""
+    (ax.xaxis if axis == "x" else ax.yaxis).set_major_formatter(Ticks())
+
+
+class Ticks(Formatter):
+    """Tick labels with thousands separators, as many decimals as the tick spacing needs, an optional
+    currency prefix, and k / M for large amounts."""
+
+    def __init__(self, currency: str = "") -> None:
+        self.currency = currency
+        self.decimals = 0
+        self.scale = (1.0, "")
+
+    def set_locs(self, locs) -> None:
+        super().set_locs(locs)
+        locs = sorted(float(x) for x in locs)
+        big = max((abs(x) for x in locs), default=0.0)
+        self.scale = (1e6, "M") if self.currency and big >= 1e6 else (1e3, "k") if self.currency and big >= 1e4 \
+            else (1.0, "")
+        scaled = [x / self.scale[0] for x in locs]
+        step = min((b - a for a, b in zip(scaled, scaled[1:]) if b > a), default=1.0)
+        # The fewest decimals that show every tick exactly (2.5k must not print as 2k).
+        self.decimals = next((k for k in range(7) if all(abs(round(x, k) - x) <= 1e-9 * max(step, 1e-12)
+                                                         for x in scaled)), 6)
+
+    def __call__(self, x, pos=None) -> str:
+        div, suffix = self.scale
+        text = f"{abs(x) / div:,.{self.decimals}f}{suffix if x != 0 else ''}"
+        sign = "-" if x < 0 and text.strip("0.,kM") else ""
+        cur = self.currency
+        sep = " " if cur and cur[-1].isalnum() else ""
+        return f"{sign}{cur}{sep}{text}" if cur else f"{sign}{text}"
+
 
 #: CSS of the HTML report, using the same palette.
 CSS = f"""

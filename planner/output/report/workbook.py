@@ -1,6 +1,6 @@
 """The Excel workbook (openpyxl): the plan's numbers at full precision, formatted for reading.
 
-Sheets: Summary, Products, Resources, Options, Sweep (when a sweep was run),
+Sheets: Summary, Products, Resources, Options, Sweep (when a sweep was run), Risk (with ``--risk``),
 and the scenario's inputs as read (Input products, Input usage, Input
 resources, Input options).  Every sheet has a bold frozen header row and number
 formats (currency with thousands separators, volumes, percentages); cells hold
@@ -16,9 +16,11 @@ from openpyxl import Workbook
 from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 
+from planner.files import set_cell
 from planner.output.plan import LABOUR_NOTE
 from planner.output.report.context import ReportContext
 from planner.output.report.fmt import changes_text, option_share, option_slate
+from planner.output.report.riskview import risk_rows
 
 HEAD_FILL = PatternFill("solid", fgColor="F1EBDF")
 QTY = "#,##0.0"
@@ -36,13 +38,15 @@ def _sheet(wb: Workbook, title: str, header: list[str], rows: list[list[Any]], f
            widths: dict[str, int] | None = None):
     """A sheet with a bold, frozen header row; ``formats`` maps header name to a number format."""
     ws = wb.create_sheet(title)
-    ws.append(header)
-    for cell in ws[1]:
+    for j, name in enumerate(header, start=1):
+        cell = set_cell(ws, 1, j, name)
         cell.font = Font(bold=True)
         cell.fill = HEAD_FILL
         cell.alignment = Alignment(wrap_text=True, vertical="top")
-    for row in rows:
-        ws.append(row)
+    for i, row in enumerate(rows, start=2):
+        for j, value in enumerate(row, start=1):
+            if value is not None:
+                set_cell(ws, i, j, value)  # text stays text: a name starting with '=' is no formula
     ws.freeze_panes = "B2"
     for k, name in enumerate(header, start=1):
         letter = get_column_letter(k)
@@ -61,7 +65,7 @@ def build_workbook(ctx: ReportContext) -> Workbook:
     m0, m2 = _money_fmt(c, 0), _money_fmt(c, 2)
     wb = Workbook()
     wb.remove(wb.active)
-    best = ctx.best_option
+    best, paying = ctx.best_option, ctx.paying_option
     summary = [
         ["scenario", p.scenario, ""], ["status", p.status, ""],
         ["total profit", p.profit, f"{c} per {p.period}, after the plant-wide fixed cost"],
@@ -71,8 +75,9 @@ def build_workbook(ctx: ReportContext) -> Workbook:
         ["products running", sum(x.running for x in p.products), f"of {len(p.products)}"],
         ["shut down", ", ".join(x.name for x in p.products if not x.running) or "none", ""],
         ["binding limits", ", ".join(r.name for r in p.bottlenecks) or "none", "dearest shadow price first"],
-        ["best capacity option", best["name"] if best else "none", ""],
-        ["its net gain", best["net_gain"] if best else None, f"{c} per {p.period}"],
+        ["best capacity option", paying["name"] if paying else ("no option pays" if best else "none"),
+         "" if paying or not best else "none adds more profit than it costs"],
+        ["its net gain", paying["net_gain"] if paying else None, f"{c} per {p.period}"],
         ["scenario file", ctx.source, ""], ["scenario SHA-256", ctx.sha256, ""],
         ["made", ctx.generated.strftime("%Y-%m-%d %H:%M UTC"), ""],
         ["versions", ", ".join(f"{k} {v}" for k, v in ctx.versions.items()), ""],
@@ -91,7 +96,7 @@ def build_workbook(ctx: ReportContext) -> Workbook:
     for x in p.products:
         s = x.standalone
         be = list(s.break_even) + [None, None]
-        prows.append([x.name, x.running, x.must_run, x.volume, x.unit, x.price, x.revenue, x.variable_cost,
+        prows.append([x.name, x.running, x.must_run, x.volume, x.unit, x.sold_price, x.revenue, x.variable_cost,
                       x.contribution, x.fixed_cost, x.profit, s.optimal_volume, s.optimal_price, s.max_profit,
                       s.max_revenue_volume, be[0], be[1]])
     _sheet(wb, "Products", prod_head, prows, {
@@ -110,15 +115,18 @@ def build_workbook(ctx: ReportContext) -> Workbook:
                                               "range high (capacity)": QTY})
 
     opt_head = ["option", "adds", "share used", "cost", "profit with it", "gain", "net gain", "slate changes",
-                "valued by"]
+                "valued by", "cost per unit", "break-even cost", "break-even cost per unit"]
     orows = []
     for o in ctx.options:
         adds = "; ".join(f"{k}: {a:g}" for k, a in (o.get("adds") or {}).items())
         share = option_share(o)
+        rate, _ = ctx.option_rate(o)
         orows.append([o.get("name"), adds, 1.0 if share is None else share, o.get("cost"), o.get("profit_with"),
-                      o.get("gain"), o.get("net_gain"), changes_text(option_slate(o)) or "none", ctx.options_source])
+                      o.get("gain"), o.get("net_gain"), changes_text(option_slate(o)) or "none", ctx.options_source,
+                      rate, o.get("break_even_cost"), o.get("break_even_cost_per_unit")])
     _sheet(wb, "Options", opt_head, orows, {"share used": PCT, "cost": m0, "profit with it": m0, "gain": m0,
-                                            "net gain": m0})
+                                            "net gain": m0, "cost per unit": m2, "break-even cost": m0,
+                                            "break-even cost per unit": m2})
 
     if ctx.sweep and ctx.sweep.get("points"):
         names = [x.name for x in p.products]
@@ -130,6 +138,15 @@ def build_workbook(ctx: ReportContext) -> Workbook:
             srows.append([pt["capacity"], pt["profit"], pt.get("shadow_price")] + [vols.get(n) for n in names])
         _sheet(wb, "Sweep", head, srows, {"capacity": QTY, "profit": m0, "shadow price": m2,
                                           **{f"volume: {n}": QTY for n in names}})
+
+    if ctx.risk:
+        rows = risk_rows(ctx)
+        ws = _sheet(wb, "Risk", ["item", "value", "unit / meaning"], [r[:3] for r in rows],
+                    widths={"item": 40, "value": 22, "unit / meaning": 50})
+        for k, r in enumerate(rows, start=2):
+            fmt = {"money": m0, "share": PCT}.get(r[3])
+            if fmt:
+                ws.cell(row=k, column=2).number_format = fmt
 
     _inputs(wb, ctx)
     return wb
@@ -162,9 +179,17 @@ def _inputs(wb: Workbook, ctx: ReportContext) -> None:
            widths={"key": 20, "value": 60})["B5"].number_format = _money_fmt(cur)
 
 
+def workbook_bytes(ctx: ReportContext) -> bytes:
+    """The whole workbook as the bytes of an .xlsx file."""
+    import io
+
+    buf = io.BytesIO()
+    build_workbook(ctx).save(buf)
+    return buf.getvalue()
+
+
 def write_workbook(ctx: ReportContext, path: str | Path) -> Path:
     """Write the workbook atomically to ``path``."""
-    from planner.files import write_atomic
+    from planner.files import write_bytes_atomic
 
-    wb = build_workbook(ctx)
-    return write_atomic(path, lambda tmp: wb.save(tmp))
+    return write_bytes_atomic(path, workbook_bytes(ctx))
