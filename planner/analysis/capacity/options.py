@@ -55,6 +55,7 @@ class OptionValue:
     slate_changes: bool
     slate_change: str
     pays: bool
+    cost_per_unit: float | None = None  # currency per resource unit added, for an option usable in part
 
     def to_dict(self) -> dict[str, Any]:
         return asdict(self)
@@ -98,7 +99,8 @@ def value_options(s: Scenario, d: MixData, base_slate: np.ndarray, duals: np.nda
             name=o.name, kind="whole" if o.adds is not None else "part", adds=option_amounts(s, o), used=used,
             cost=cost, profit_with=base_profit + gain, gain=gain, net_gain=net, break_even_cost=gain_full,
             break_even_cost_per_unit=gain_full / total if o.adds_up_to is not None and total > 0 else None,
-            estimate=estimate, slate_changes=bool(change), slate_change=change, pays=net > 1e-9 * max(abs(base_profit), 1)))
+            estimate=estimate, slate_changes=bool(change), slate_change=change, pays=net > 1e-9 * max(abs(base_profit), 1),
+            cost_per_unit=float(o.cost_per_unit) if o.adds_up_to is not None and o.cost_per_unit is not None else None))
     return base_profit, out
 
 
