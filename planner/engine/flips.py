@@ -85,10 +85,12 @@ def _ranked_moves(p: Problem, z: np.ndarray, lam: np.ndarray, which: np.ndarray)
     binding = lam > 0
     if binding.any():
         M = p.curvature(lam, z)[np.ix_(binding, binding)]
-        ridge = 1e-9 * max(float(np.trace(M)), 1e-300) / max(int(binding.sum()), 1)
+        ridge = max(1e-9 * float(np.max(np.diag(M), initial=0.0)), 1e-300)
         try:
             K = np.linalg.inv(M + ridge * np.eye(M.shape[0]))
         except np.linalg.LinAlgError:
+            return []
+        if not np.all(np.isfinite(K)):
             return []
         wb = w[:, binding]
         Kw = wb @ K

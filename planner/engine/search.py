@@ -46,7 +46,7 @@ from planner.engine.fallback import fallback_choices
 from planner.engine.flips import improve
 from planner.engine.highs import Outcome, Status
 from planner.engine.problem import Problem
-from planner.engine.settings import BRANCH_MAX_ROWS, ENUMERATE_UP_TO, MAX_ROUNDS
+from planner.engine.settings import BRANCH_DUAL_TOL, BRANCH_MAX_ROWS, ENUMERATE_UP_TO, MAX_ROUNDS
 from planner.engine.slateqp import SlateResult, solve_choice
 
 
@@ -159,9 +159,20 @@ def search(p: Problem, rel_gap: float, deadline: float | None = None, threads: i
     if out_of_time():
         return _fallback(p, slates, found, messages, "lagrangian")
     if slates.best is not None and p.m <= BRANCH_MAX_ROWS:
-        # flips of the marginal choices, then the branch-and-bound over the Lagrangian
-        z, _ = improve(p, slates.best.choice, slates.best.duals, slates.best.objective, deadline)
-        slates.evaluate(z)
+        # the dual minimised closely (its bounds fix the choices), flips of the marginal choices from the
+        # incumbent and from the slate at the dual's minimum, then the branch-and-bound over the Lagrangian
+        fine = minimise(p, rel_tol=BRANCH_DUAL_TOL, deadline=deadline, bundle=dual.points, threads=threads,
+                        seed=seed, money=money)
+        steps += fine.steps
+        bound = min(bound, fine.best.value)
+        dual = fine
+        tried = [q.lam for q in dual.points[-10:]]
+        starts = [slates.best, slates.evaluate(fine.best.choice)]
+        for res in starts:
+            if res.status != "optimal" or gap(bound) <= rel_gap or out_of_time():
+                continue
+            z, _ = improve(p, res.choice, res.duals, res.objective, deadline)
+            slates.evaluate(z)
         if gap(bound) <= rel_gap:
             messages.append("a better slate by flipping marginal choices")
             return found(Status.OPTIMAL, "lagrangian+flips")

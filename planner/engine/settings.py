@@ -83,6 +83,10 @@ FLIP_PAIRS_OF = 200
 #: Branch-and-bound over the Lagrangian (planner.engine.branch): most shared rows for its dense
 #: Newton steps, most nodes before it hands over to the cut MILP, Newton steps per smoothing level.
 BRANCH_MAX_ROWS = 200
+#: Before flips and branching the dual is minimised to this relative accuracy (resumed from its
+#: bundle): measured on 1,000 products × 20 limits, 1e-9 instead of the gap's quarter left 465 nodes
+#: to search instead of 1,409 (its bounds fix more choices, its slate flips to a better incumbent).
+BRANCH_DUAL_TOL = 1e-9
 BRANCH_NODES = 20_000
 BRANCH_NEWTON = 25
 #: Huber smoothing of an open choice's max(on, 0), first and last, as fractions of the incumbent's

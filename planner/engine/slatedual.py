@@ -42,6 +42,30 @@ class FixedDual:
     converged: bool  # Newton decrement below NEWTON_TOL of the value: value ≈ V(S)
 
 
+def newton_direction(M: np.ndarray, g: np.ndarray, lam: np.ndarray, move: np.ndarray) -> np.ndarray:
+    """−(M + diag ρ)⁻¹ g on the rows that ``move`` (0 elsewhere).
+
+    ρ is 1e-9 of the largest curvature; a row with (almost) no curvature of its own (no running
+    product strictly inside its bounds uses it) also gets ‖g‖∞ / (0.1·(max λ + 1)), so it moves
+    by at most a tenth of the multipliers' size and the line search takes it from there.
+    """
+    d = np.zeros_like(lam)
+    if not move.any():
+        return d
+    A = M[np.ix_(move, move)]
+    gm = g[move]
+    diag = np.diag(A)
+    top = float(np.max(diag, initial=0.0))
+    floor = float(np.max(np.abs(gm), initial=0.0)) / (0.1 * (float(np.max(lam, initial=0.0)) + 1.0))
+    ridge = np.maximum(1e-9 * top, 1e-300) + np.where(diag <= 1e-9 * top, max(floor, 1e-300), 0.0)
+    try:
+        step = -np.linalg.solve(A + np.diag(ridge), gm)
+    except np.linalg.LinAlgError:
+        step = -gm / ridge
+    d[move] = np.where(np.isfinite(step), step, 0.0)
+    return d
+
+
 def value_at(p: Problem, lam: np.ndarray, choice: np.ndarray) -> tuple[float, np.ndarray]:
     """(φ_S(λ), its gradient cap − use) at λ with ``choice`` forced."""
     resp = p.respond(lam, choice)
@@ -59,14 +83,7 @@ def price_slate(p: Problem, choice: np.ndarray, lam0: np.ndarray, max_steps: int
         M = p.curvature(lam, choice)
         held = (lam <= 0.0) & (g > 0.0)
         move = ~held
-        d = np.zeros_like(lam)
-        if move.any():
-            A = M[np.ix_(move, move)]
-            ridge = 1e-12 * max(float(np.trace(A)), 1e-300)
-            try:
-                d[move] = -np.linalg.solve(A + ridge * np.eye(A.shape[0]), g[move])
-            except np.linalg.LinAlgError:
-                d[move] = -g[move]
+        d = newton_direction(M, g, lam, move)
         decrement = -float(g @ d)
         if decrement <= tol * scale:
             return FixedDual(lam, val, step, True)
