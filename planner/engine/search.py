@@ -161,18 +161,18 @@ def search(p: Problem, rel_gap: float, deadline: float | None = None, threads: i
     if slates.best is not None and p.m <= BRANCH_MAX_ROWS:
         # the dual minimised closely (its bounds fix the choices), flips of the marginal choices from the
         # incumbent and from the slate at the dual's minimum, then the branch-and-bound over the Lagrangian
-        fine = minimise(p, rel_tol=BRANCH_DUAL_TOL, deadline=deadline, bundle=dual.points, threads=threads,
-                        seed=seed, money=money)
-        steps += fine.steps
-        bound = min(bound, fine.best.value)
-        dual = fine
-        tried = [q.lam for q in dual.points[-10:]]
-        starts = [slates.best, slates.evaluate(fine.best.choice)]
-        for res in starts:
-            if res.status != "optimal" or gap(bound) <= rel_gap or out_of_time():
-                continue
-            z, _ = improve(p, res.choice, res.duals, res.objective, deadline)
-            slates.evaluate(z)
+        best = slates.best
+        slates.evaluate(improve(p, best.choice, best.duals, best.objective, deadline)[0])
+        if gap(bound) > rel_gap and not out_of_time():
+            fine = minimise(p, rel_tol=BRANCH_DUAL_TOL, deadline=deadline, bundle=dual.points, threads=threads,
+                            seed=seed, money=money)
+            steps += fine.steps
+            bound = min(bound, fine.best.value)
+            dual = fine
+            tried = [q.lam for q in dual.points[-10:]]
+            res = slates.evaluate(fine.best.choice)
+            if res.status == "optimal" and gap(bound) > rel_gap and not out_of_time():
+                slates.evaluate(improve(p, res.choice, res.duals, res.objective, deadline)[0])
         if gap(bound) <= rel_gap:
             messages.append("a better slate by flipping marginal choices")
             return found(Status.OPTIMAL, "lagrangian+flips")
