@@ -16,6 +16,7 @@ import numpy as np
 from models.data import MixData
 from models.economics import capacity_value, standalone
 from planner.engine import DEFAULT_GAP, Engine, Solution, relative_gap
+from planner.engine.highs import has_ipm
 from planner.engine.infeasible import explain as explain_infeasible
 from planner.engine.settings import LIMIT_TOL, MAX_GAP
 from planner.engine.verify import check_plan
@@ -66,7 +67,16 @@ def plan(scenario: Scenario | str | Path, rel_gap: float = DEFAULT_GAP, time_lim
         raise SolverError(f"the plan could not be certified to the gap asked for ({'; '.join(sol.messages)}); "
                           f"the best plan found makes {sol.objective:,.2f} against a bound of {sol.bound:,.2f} "
                           f"(gap {sol.gap:.2e}): try a larger --gap, a --time-limit, or --solver scip")
-    return build_plan(scenario, d, sol, warnings, threads, seed)
+    out = build_plan(scenario, d, sol, warnings, threads, seed)
+    if d.n >= IPM_ADVICE_FROM and not has_ipm():
+        out.warnings.append("HiGHS's interior-point QP (highspy-extras) is not installed: large plans are solved by "
+                            "its active-set QP, which slows sharply with thousands of products inside their bounds "
+                            "(pip install 'planner[ipm]', which pins highspy 1.15.1 beside it)")
+    return out
+
+
+#: Products from which a plan without HiGHS's interior-point QP carries a warning.
+IPM_ADVICE_FROM = 1000
 
 
 def build_plan(s: Scenario, d: MixData, sol: Solution, warnings: list[str] | None = None,
