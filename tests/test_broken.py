@@ -100,7 +100,8 @@ EXPECTED: dict[str, list[str]] = {
         "products[bracket].price_slope: must be a plain number, not a percentage (got '1%') (write 1% as 0.01)",
     ],
     '27_decimal_comma.yaml': [
-        "products[bracket].usage.5: '5' has no amount: a decimal comma splits the number inside { } (write decimals with a point, e.g. 0.5)",
+        "line 7, column 19 (products[bracket].usage.mill): 0,5 is split at its comma: inside { } a comma separates "
+        "entries, so YAML reads 0 here and 5 as a key of its own (write 0.5, with a decimal point)",
     ],
     '28_huge_number.yaml': [
         'resources[mill].capacity: is too large (more than 1e+15) (got 1e+300) (use a larger unit, such as thousands or tonnes, so amounts stay within 1e15)',
