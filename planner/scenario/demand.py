@@ -56,7 +56,8 @@ def _number(v: Any, where: str, problems: list[Problem], what: str = "") -> floa
     """``v`` by the number rule of :mod:`planner.scenario.numbers`, or None with a problem added."""
     value, message, fix = number_or_problem(v)
     if value is None:
-        shown = "" if isinstance(v, Unusable) else f" (got {v!r})"
+        quoted = isinstance(v, Unusable) or message.startswith("must be a plain decimal number")
+        shown = "" if quoted else f" (got {v!r})"
         place = f"{v.place()} ({where})" if isinstance(v, Unusable) and v.place() else where
         problems.append(Problem(place, f"{what}{message}{shown}", fix))
     return value

@@ -43,7 +43,7 @@ def check_names(s: Scenario) -> None:
             if seen != x.name:
                 problems.append(Problem(f"{section}[{x.name}]", f"differs from {section}[{seen}] only in "
                                         f"{how_alike(seen, x.name)}", "names must differ by more than case, "
-                                        "spacing or Unicode form: rename one"))
+                                        "spacing or how accents are encoded: rename one"))
         for name, count in Counter(x.name for x in items).items():
             if count > 1:
                 problems.append(Problem(f"{section}[{name}]", f"name used {count} times", "names must be unique"))

@@ -16,6 +16,7 @@ import yaml
 
 from planner.errors import Problem, ScenarioError
 from planner.scenario.fastyaml import fast_read
+from planner.scenario.names import character_kind
 from planner.scenario.numbers import PLAIN, CommaSplit, Spelled
 from planner.scenario.schema import Scenario
 from planner.scenario.validate import validate_scenario
@@ -123,6 +124,16 @@ _Loader.add_constructor(_COMMA_TAG, _Loader.construct_comma_split)
 def _yaml_problem(e: yaml.YAMLError, data: bytes) -> Problem:
     """A readable problem for a YAML syntax or encoding error, with line and column."""
     if isinstance(e, yaml.reader.ReaderError):
+        ch = e.character if isinstance(e.character, str) else chr(e.character) if isinstance(e.character, int) else ""
+        try:
+            text = data.decode("utf-8")
+        except UnicodeDecodeError:
+            text = ""
+        if ch and ch in text:  # valid UTF-8 (checked first), so a character YAML does not allow in a file
+            at = text.index(ch)
+            line, column = text.count("\n", 0, at) + 1, at - (text.rfind("\n", 0, at) + 1) + 1
+            return Problem(f"line {line}, column {column}", f"contains {character_kind(ch)} U+{ord(ch):04X}",
+                           "remove it: a scenario file holds printable text only")
         pos = int(getattr(e, "position", 0) or 0)
         line = data[:pos].count(b"\n") + 1
         byte = data[pos:pos + 1].hex() if pos < len(data) else "?"

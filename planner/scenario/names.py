@@ -25,6 +25,7 @@
 from __future__ import annotations
 
 import difflib
+import itertools
 import unicodedata
 
 #: Bidirectional controls: embeddings, overrides, isolates and marks.
@@ -46,6 +47,11 @@ def _kind(ch: str) -> str | None:
     if cat in ("Cn", "Co", "Cs"):
         return "an unassigned or private-use character"
     return None
+
+
+def character_kind(ch: str) -> str:
+    """What a character refused in a name is ('a control character' ...), 'a character' if it is allowed."""
+    return _kind(ch) or "a character"
 
 
 def bad_character(text: str, line_breaks: bool = False) -> tuple[int, str, str] | None:
@@ -84,14 +90,18 @@ def name_key(name: str) -> str:
 
 
 def how_alike(a: str, b: str) -> str:
-    """In what two different spellings of one name differ: 'case', 'spacing', 'Unicode form' or a mix."""
-    if " ".join(a.split()) == " ".join(b.split()):
-        return "spacing"
-    if unicodedata.normalize("NFKC", a) == unicodedata.normalize("NFKC", b):
-        return "Unicode form (how accents or symbols are encoded)"
-    if a.casefold() == b.casefold():
-        return "case"
-    return "case, spacing or Unicode form"
+    """In what two spellings of one name differ: 'case', 'spacing', 'Unicode form' or several joined by 'and'."""
+    steps = {"spacing": lambda x: " ".join(x.split()), "Unicode form": lambda x: unicodedata.normalize("NFKC", x),
+             "case": str.casefold}
+    for size in (1, 2, 3):
+        for chosen in itertools.combinations(steps, size):
+            x, y = a, b
+            for name in steps:  # always in the same order
+                if name in chosen:
+                    x, y = steps[name](x), steps[name](y)
+            if x == y:
+                return " and ".join(chosen)
+    return "case, spacing and Unicode form"
 
 
 def fold(word: str) -> str:

@@ -37,23 +37,28 @@ def _name_problems(raw: dict[str, Any]) -> list[Problem]:
     """Names given twice in one section, exactly or in a spelling that differs only in case, spacing or Unicode form."""
     problems: list[Problem] = []
     for section in _NAMED:
-        groups: dict[str, list[str]] = {}
-        for _, e in indexed(raw, section):
+        groups: dict[str, list[tuple[int, str]]] = {}
+        for i, e in indexed(raw, section):
             n = clean_name(e.get("name"))
             if n:
-                groups.setdefault(name_key(n), []).append(n)
+                groups.setdefault(name_key(n), []).append((i, n))
         for members in groups.values():
             if len(members) < 2:
                 continue
-            spellings = Counter(members)  # in order of first use
-            for n, count in spellings.items():
-                if count > 1:
-                    problems.append(Problem(f"{section}[{n}]", f"name used {count} times", "names must be unique"))
-            first = members[0]
-            for n in list(spellings)[1:]:
-                problems.append(Problem(f"{section}[{n}]", f"differs from {section}[{first}] only in "
-                                        f"{how_alike(first, n)}", "names must differ by more than case, "
-                                        "spacing or Unicode form: rename one"))
+            spellings: dict[str, list[int]] = {}
+            for i, n in members:  # in order of first use
+                spellings.setdefault(n, []).append(i)
+            for n, where in spellings.items():
+                if len(where) > 1:
+                    problems.append(Problem(f"{section}[{n}]", f"name used {len(where)} times", "names must be unique"))
+            first = members[0][1]
+            for n, where in list(spellings.items())[1:]:
+                how = how_alike(first, n)
+                # spellings that look the same are told apart by their position in the list
+                at, other = ((f"{section}[{where[0] + 1}]", f"{section}[{spellings[first][0] + 1}] ({first})")
+                             if "Unicode" in how else (f"{section}[{n}]", f"{section}[{first}]"))
+                problems.append(Problem(at, f"differs from {other} only in {how}", "names must differ by more than "
+                                        "case, spacing or how accents are encoded: rename one"))
     return problems
 
 
