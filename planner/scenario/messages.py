@@ -73,7 +73,8 @@ def _section_of(loc: tuple[Any, ...]) -> str:
 
 
 #: Fixes for the schema's own value errors, by the start of their message.
-_VALUE_FIXES = {"must be a number, not true/false": "write the amount in digits", **SIZE_FIXES}
+_VALUE_FIXES = {"must be a number, not true/false": "write the amount in digits",
+                "must be a whole number": "write it without decimals", **SIZE_FIXES}
 
 _SECTION_HINT = {
     "products": "write each product as a list entry starting '- name: ...'",

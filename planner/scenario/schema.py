@@ -56,7 +56,12 @@ def _as_number(x: object) -> object:
 
 def _as_count(x: object) -> object:
     value = _as_number(x)
-    if isinstance(value, float) and value.is_integer():
+    if isinstance(value, float):
+        why = size_problem(value)
+        if why:
+            raise ValueError(why)
+        if not value.is_integer():
+            raise ValueError("must be a whole number")
         return int(value)
     return value
 
