@@ -245,6 +245,18 @@ def _read_pyyaml(data: bytes, path: Path) -> tuple[Any, list[Problem]]:
     return raw, loader.duplicates
 
 
+def parse_yaml(text: str | bytes) -> Any:
+    """YAML text as the planner reads it (PyYAML's safe loader, numbers spelled otherwise kept as written).
+
+    No fast path and no checks: the reference the fast reader is held to (tests/test_fastyaml.py).
+    """
+    loader = _Loader(text)
+    try:
+        return loader.get_single_data()
+    finally:
+        loader.dispose()
+
+
 def read_yaml(path: Path) -> Any:
     """The raw content of a YAML scenario file (safe loader; errors name the line)."""
     raw, problems = read_yaml_checked(path)
