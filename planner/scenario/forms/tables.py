@@ -136,6 +136,15 @@ def _needs_json(col: str, value: Any) -> bool:
     return isinstance(value, str) and coerce(col, value) != value
 
 
+def _as_cells(header: list[str], rows: list[list[Any]]) -> tuple[list[str], list[list[Any]]]:
+    """Columns holding a value a cell cannot carry exactly become ``:json`` columns."""
+    nested = {j for j, c in enumerate(header) if any(j < len(r) and _needs_json(c, r[j]) for r in rows)}
+    if not nested:
+        return header, rows
+    return ([f"{c}:json" if j in nested else c for j, c in enumerate(header)],
+            [[json.dumps(v) if j in nested and v is not None else v for j, v in enumerate(r)] for r in rows])
+
+
 def _rows(entries: list[dict], cols: list[str]) -> tuple[list[str], list[list[Any]]]:
     nested = {c for c in cols if any(c in e and _needs_json(c, e[c]) for e in entries)}
     header = [f"{c}:json" if c in nested else c for c in cols]
@@ -155,15 +164,15 @@ def to_tables(raw: dict[str, Any], wide_usage: bool = False) -> dict[str, tuple[
     cols = _columns(products, COLUMNS["products"], {"usage", "demand", "demand_fit"})
     out["products"] = _rows(products, cols)
     if any("usage" in p for p in products):
-        if wide_usage:
-            res: list[str] = []
-            for p in products:
-                res += [r for r in (p.get("usage") or {}) if r not in res]
+        res: list[str] = []
+        for p in products:
+            res += [r for r in (p.get("usage") or {}) if r not in res]
+        if wide_usage and not any(_needs_json("resource", r) or not isinstance(r, str) for r in res):
             out["usage"] = (["product"] + res, [[p.get("name")] + [(p.get("usage") or {}).get(r) for r in res]
                                                 for p in products if p.get("usage")])
         else:
-            out["usage"] = (COLUMNS["usage"], [[p.get("name"), r, a] for p in products
-                                               for r, a in (p.get("usage") or {}).items()])
+            out["usage"] = _as_cells(COLUMNS["usage"], [[p.get("name"), r, a] for p in products
+                                                         for r, a in (p.get("usage") or {}).items()])
     dem = []
     for p in products:
         if isinstance(p.get("demand"), dict):
@@ -187,7 +196,7 @@ def to_tables(raw: dict[str, Any], wide_usage: bool = False) -> dict[str, tuple[
         out["options"] = _rows(opts, _columns(opts, COLUMNS["options"], {"adds", "adds_up_to"}))
         amounts = [[o.get("name"), r, a if key == "adds" else None, a if key == "adds_up_to" else None]
                    for o in opts for key in ("adds", "adds_up_to") for r, a in (o.get(key) or {}).items()]
-        out["option_amounts"] = (COLUMNS["option_amounts"], amounts)
+        out["option_amounts"] = _as_cells(COLUMNS["option_amounts"], amounts)
     if "correlations" in sections:
         cor = [{"product_1": (c.get("products") or [None, None])[0], "product_2": (c.get("products") or [None, None])[1],
                 **{k: v for k, v in c.items() if k != "products"}} for c in sections.pop("correlations")]
@@ -367,7 +376,7 @@ def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_n
 
     if "usage" in tables:
         t = tables["usage"]
-        heads = [str(h).strip() for h in t.header if h is not None and str(h).strip()]
+        heads = [str(h).strip().removesuffix(":json") for h in t.header if h is not None and str(h).strip()]
         long = set(heads) <= {"product", "resource", "amount"} and {"resource", "amount"} <= set(heads)
         recs = rd.records(t, ["product", "resource", "amount"] if long else ["product"])
         for r, rec in recs:
