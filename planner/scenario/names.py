@@ -80,8 +80,14 @@ def character_problem(text: str, line_breaks: bool = False) -> tuple[str, str] |
 
 
 def shown(name: str) -> str:
-    """A name as it may appear in a message: as written if clean, else escaped (repr)."""
-    return name if bad_character(name) is None else repr(name)
+    """A name as it may appear in a message: as written if clean, else quoted with refused characters escaped."""
+    if bad_character(name) is None:
+        return name
+    def esc(ch: str) -> str:
+        if _kind(ch) is None and ch.isprintable():
+            return ch
+        return f"\\x{ord(ch):02x}" if ord(ch) < 0x100 else f"\\u{ord(ch):04x}" if ord(ch) < 0x10000 else f"\\U{ord(ch):08x}"
+    return "'" + "".join(map(esc, name)) + "'"
 
 
 def name_key(name: str) -> str:
