@@ -26,12 +26,14 @@ from __future__ import annotations
 
 import difflib
 import itertools
+import re
 import unicodedata
 
 #: Bidirectional controls: embeddings, overrides, isolates and marks.
 _BIDI = set(range(0x202A, 0x202F)) | set(range(0x2066, 0x206A)) | {0x200E, 0x200F, 0x061C}
 #: Characters that show nothing though their category is a letter or a mark.
 _BLANK_LETTERS = {0x115F, 0x1160, 0x3164, 0xFFA0, 0x034F, 0x180E}
+_BLANK_RE = re.compile("[" + "".join(chr(c) for c in sorted(_BLANK_LETTERS)) + "]")
 
 
 def _kind(ch: str) -> str | None:
@@ -59,6 +61,8 @@ def bad_character(text: str, line_breaks: bool = False) -> tuple[int, str, str] 
 
     ``line_breaks`` allows newline, carriage return and tab (for descriptions).
     """
+    if text.isprintable() and _BLANK_RE.search(text) is None:  # the common case, at C speed
+        return None
     for i, ch in enumerate(text):
         if ch.isprintable() and ord(ch) not in _BLANK_LETTERS:
             continue  # the common case, cheap

@@ -151,7 +151,7 @@ class CommaSplit(Unusable):
                 f"{head} here and {rest.replace(',', ' and ')} as {'keys' if ',' in rest else 'a key'} of its own")
         if as_text:
             return what, f"quote it: '{self.text}'"
-        thousands = re.fullmatch(r"[-+]?[0-9]{1,3}(?:,[0-9]{3})+", self.text)
+        thousands = re.fullmatch(r"[-+]?[0-9]{1,3}(?:,[0-9]{3})+(?:\.[0-9]*)?", self.text)
         if thousands:
             return what, f"write {self.text.replace(',', '')}, without the comma"
         if self.text.count(",") == 1 and "." not in self.text:
