@@ -277,6 +277,13 @@ EXPECTED: dict[str, list[str]] = {
     '73_raw_control_character.yaml': [
         'line 3, column 19: contains a control character U+001B (remove it: a scenario file holds printable text only)',
     ],
+    '74_impossible_date.yaml': [
+        "line 3, column 9: is not valid YAML: '2026-02-30' cannot be read as a date (quote it if it is text, or write it in plain form)",
+    ],
+    '75_unreadable_yaml_number.yaml': [
+        'line 6, column 16 (products[bracket].unit_cost): must be a plain decimal number: twenty is not a number YAML can read (write the amount in digits, e.g. 1200 or 0.75)',
+        'line 10, column 15 (resources[mill].capacity): must be a plain decimal number: 0x_ is not a number YAML can read (write the amount in digits, e.g. 1200 or 0.75)',
+    ],
 }
 
 

@@ -80,7 +80,23 @@ class _Loader(_Base):  # type: ignore[misc, valid-type]
         super().__init__(stream)
         self.duplicates: list[Problem] = []
 
+    def construct_object(self, node: Any, deep: bool = False) -> Any:
+        """PyYAML's, with a located error for a value its constructors fail on (``2026-02-30``, ``!!timestamp x``)."""
+        try:
+            return super().construct_object(node, deep=deep)
+        except yaml.YAMLError:
+            raise
+        except (ValueError, TypeError, AttributeError, KeyError, IndexError, OverflowError):
+            kind = {"timestamp": "a date", "set": "a set", "binary": "binary data", "bool": "true or false",
+                    "omap": "an ordered mapping", "pairs": "a list of pairs"}.get(str(node.tag).rsplit(":", 1)[-1],
+                                                                                  "its type")
+            shown = node.value if isinstance(node, yaml.ScalarNode) else "this value"
+            raise yaml.constructor.ConstructorError(None, None, f"{shown!r} cannot be read as {kind}",
+                                                    node.start_mark) from None
+
     def construct_mapping(self, node: Any, deep: bool = False) -> Any:
+        if not isinstance(node, yaml.MappingNode):
+            return super().construct_mapping(node, deep=deep)  # PyYAML's own error: expected a mapping
         if node.flow_style and len(node.value) > 1:
             node.value = _join_comma_pieces(node.value)
         seen: dict[Any, int] = {}
@@ -103,11 +119,17 @@ class _Loader(_Base):  # type: ignore[misc, valid-type]
         return super().construct_mapping(node, deep=deep)
 
     def construct_spelled_int(self, node: Any) -> Any:
-        value = self.construct_yaml_int(node)
+        try:
+            value = self.construct_yaml_int(node)
+        except (ValueError, IndexError):  # matched as a number, unreadable: 0x_, 0b_, !!int abc, !!int ""
+            return Spelled(node.value, None, *_mark(node))
         return value if PLAIN.fullmatch(node.value) else Spelled(node.value, value, *_mark(node))
 
     def construct_spelled_float(self, node: Any) -> Any:
-        value = self.construct_yaml_float(node)
+        try:
+            value = self.construct_yaml_float(node)
+        except (ValueError, IndexError):
+            return Spelled(node.value, None, *_mark(node))
         if PLAIN.fullmatch(node.value) or _NOT_FINITE.fullmatch(node.value):
             return value  # .inf and .nan: refused as not finite, by the schema
         return Spelled(node.value, value, *_mark(node))
@@ -150,6 +172,8 @@ def _yaml_problem(e: yaml.YAMLError, data: bytes) -> Problem:
         fix = "remove the '!!' tag: scenario files hold plain values only"
     elif "tab" in what:
         fix = "indent with spaces, not tabs"
+    elif "cannot be read as" in what:
+        fix = "quote it if it is text, or write it in plain form"
     elif "mapping values are not allowed" in what:
         fix = "put a space after each colon, and quote text that contains ': '"
     else:

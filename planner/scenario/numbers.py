@@ -30,12 +30,13 @@ from __future__ import annotations
 
 import math
 import re
+import unicodedata
 from typing import Any
 
 #: The plain decimal spelling: what a number field accepts, as text or as YAML wrote it.
 PLAIN = re.compile(r"[-+]?(?:(?:0|[1-9][0-9]*)(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?")
 _PLAIN_INT = re.compile(r"[-+]?(?:0|[1-9][0-9]*)")
-_NOT_FINITE = {"inf", "infinity", "nan", ".inf", ".nan"}
+_NOT_FINITE = {"inf", "infinity", "nan", ".inf", ".nan", "∞"}
 
 _HEX = re.compile(r"([-+]?)0[xX]([0-9a-fA-F_]+)")
 _OCT = re.compile(r"([-+]?)0[oO]([0-7_]+)")
@@ -78,8 +79,16 @@ def spelling(text: str) -> tuple[str, str] | None:
         for p in parts:
             base60 = base60 * 60 + p
         hours = sum(p / 60 ** k for k, p in enumerate(parts))
-        return ("is written in base 60, like a time", f"{_g(round(sign * hours, 4))} if it means hours and minutes, "
-                f"or {_g(sign * base60)} if minutes")
+        meant, small = {2: ("hours and minutes", "minutes"), 3: ("hours, minutes and seconds", "seconds")}.get(
+            len(parts), ("a time in hours", "its last unit"))
+        return ("is written in base 60, like a time", f"{_g(round(sign * hours, 4))} if it means {meant}, "
+                f"or {_g(sign * base60)} if {small}")
+    if any(c.isdecimal() and not c.isascii() for c in t):  # ١٢٣, ４００: digits of another script
+        ascii_ = "".join(str(unicodedata.decimal(c)) if c.isdecimal() else c for c in t)
+        if PLAIN.fullmatch(ascii_) or spelling(ascii_):
+            plain = ascii_ if PLAIN.fullmatch(ascii_) else (spelling(ascii_) or ("", ascii_))[1]
+            return "is written with digits other than 0-9", plain
+        return None
     if not _DIGITS.fullmatch(t) or PLAIN.fullmatch(t):
         return None
     body = t.replace("_", "")
@@ -129,10 +138,13 @@ class Spelled(Unusable):
 
     def problem(self, as_text: bool) -> tuple[str, str]:
         if as_text:
-            return (f"must be text, but YAML reads {self.text} as the number {_g(self.value)}",
-                    f"quote it: '{self.text}'")
+            reads = "a number" if self.value is None else f"the number {_g(self.value)}"
+            return f"must be text, but YAML reads {self.text} as {reads}", f"quote it: '{self.text}'"
+        if self.value is None:  # YAML 1.1 matched it as a number but cannot read it (0x_)
+            return (f"must be a plain decimal number: {self.text or repr(self.text)} is not a number YAML can read",
+                    "write the amount in digits, e.g. 1200 or 0.75")
         what, plain = spelling(self.text) or ("is not written in plain decimal", _g(self.value))
-        if yaml_octal(self.text):
+        if yaml_octal(self.text) and isinstance(self.value, int):
             what += f", which YAML reads as the octal number {_g(self.value)}"
         elif "in decimal)" not in what:
             what += f", which YAML reads as {_g(self.value)}"
@@ -189,7 +201,7 @@ def read_number(x: Any) -> tuple[float | int | None, str, str]:
         if PLAIN.fullmatch(t):
             return (int(t) if _PLAIN_INT.fullmatch(t) else float(t)), "", ""
         if t.lower().lstrip("+-") in _NOT_FINITE:
-            return None, "must be a finite number", "write an ordinary number"
+            return None, f"must be a finite number (got {x!r})", "write an ordinary number"
         odd = spelling(t)
         if odd is not None:
             return None, f"must be a plain decimal number: '{t}' {odd[0]}", f"write {odd[1]}"
