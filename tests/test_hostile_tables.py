@@ -113,11 +113,19 @@ def test_a_report_workbook_is_recognised(tmp_path):
 
     s, _ = validate_scenario(tiny())
     path = write_workbook(ReportContext(plan=plan(s), scenario=s, source="tiny.yaml"), tmp_path / "plan.xlsx")
-    res = CliRunner().invoke(main, ["plan", str(path)])
-    assert res.exit_code == 2
-    assert res.stderr == (f"error: 1 problem in the scenario:\n  - {path}: this is a report workbook written by planner "
-                          "report: it holds a plan and the inputs as read, not a scenario (use the scenario file it "
-                          "came from, named on its Summary sheet, or `planner convert` that file to a workbook)\n")
+    expected = (f"error: 1 problem in the scenario:\n  - {path}: this is a report workbook written by planner "
+                "report: it holds a plan and the inputs as read, not a scenario (use the scenario file it "
+                "came from, named on its Summary sheet, or `planner convert` that file to a workbook)\n")
+    for command in ("plan", "check", "report"):
+        res = CliRunner().invoke(main, [command, str(path)])
+        assert res.exit_code == 2 and res.stderr == expected, command
+    from openpyxl import load_workbook
+
+    wb = load_workbook(path)  # with the input sheets deleted, the Summary sheet still tells
+    for name in [n for n in wb.sheetnames if n.startswith("Input ")]:
+        del wb[name]
+    wb.save(path)
+    assert CliRunner().invoke(main, ["check", str(path)]).stderr == expected
 
 
 def test_a_heading_given_twice_in_a_history_is_refused(tmp_path):

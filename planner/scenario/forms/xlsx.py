@@ -90,17 +90,19 @@ def field_notes() -> dict[tuple[str, str], str]:
     return out
 
 
-#: Sheets of the workbook ``planner report`` writes (planner.output.report.workbook): a plan, not a scenario.
-REPORT_SHEETS = {"Summary", "Input products", "Input scenario"}
+#: Sheets of the workbook ``planner report`` writes (planner.output.report.workbook) with the inputs as read:
+#: no scenario workbook has them, so any one marks a plan, not a scenario.
+REPORT_SHEETS = {"Input products", "Input usage", "Input resources", "Input options", "Input scenario"}
 
 
 def _is_report(wb) -> bool:
-    """Whether a workbook is a plan written by ``planner report`` (its Summary sheet and the inputs as read)."""
-    names = {ws.title.strip() for ws in wb.worksheets}
-    if not REPORT_SHEETS <= names:
-        return False
-    head = [c.value for c in next(wb["Summary"].iter_rows(max_row=1), ())]
-    return head[:2] == ["item", "value"]
+    """Whether a workbook is a plan written by ``planner report`` (an input sheet, or its Summary sheet's heading)."""
+    names = {ws.title.strip(): ws for ws in wb.worksheets}
+    if REPORT_SHEETS & set(names):
+        return True
+    summary = names.get("Summary")
+    head = [c.value for c in next(summary.iter_rows(max_row=1), ())] if summary is not None else []
+    return head[:3] == ["item", "value", "unit / meaning"]
 
 
 def _formulas_without_values(path: Path) -> dict[str, dict[tuple[int, int], str]]:
