@@ -9,7 +9,6 @@ legal but probably not meant) are returned alongside.
 
 from __future__ import annotations
 
-from collections import Counter
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
