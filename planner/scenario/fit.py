@@ -39,6 +39,8 @@ from typing import Any
 import numpy as np
 
 from planner.errors import Problem
+from planner.scenario.forms.csvdir import separator_message, separator_problem
+from planner.scenario.numbers import number_or_problem
 
 #: Fewer observations than this get a "too few points" warning (rule of thumb of this tool).
 FEW_POINTS = 8
@@ -303,11 +305,22 @@ def read_history(path: str | Path) -> tuple[dict[str, dict[str, list]], list[Pro
         text = p.read_text(encoding="utf-8-sig")
     except OSError as e:
         return {}, [Problem(str(p), f"cannot be read: {e.strerror or e}", "check the history file's path")]
+    first = text.split("\n", 1)[0].rstrip("\r")
+    odd = separator_problem(first)
+    if odd:
+        message, fix = separator_message(odd)
+        return {}, [Problem(p.name, message, fix)]
     rows = list(csv.reader(text.splitlines()))
     if not rows:
         return {}, [Problem(str(p), "is empty", "give a header row: product,price,volume[,period]")]
     header = [h.strip().lower() for h in rows[0]]
     problems = []
+    for need in ("product", "price", "volume", "period"):
+        where = [i + 1 for i, h in enumerate(header) if h == need]
+        if len(where) > 1:
+            shown = " and ".join(f"{_letter(i - 1)} ({rows[0][i - 1].strip()!r})" for i in where)
+            problems.append(Problem(f"{p.name}, row 1", f"has the heading '{need}' {len(where)} times: columns {shown}",
+                                    "keep one of the columns, or rename the others"))
     for need in ("product", "price", "volume"):
         if need not in header:
             from planner.scenario.names import did_you_mean
@@ -328,14 +341,13 @@ def read_history(path: str | Path) -> tuple[dict[str, dict[str, list]], list[Pro
             continue
         vals = {}
         for k in ("price", "volume"):
-            try:
-                v = float(cell(k))
-                if not math.isfinite(v) or v < 0:
-                    raise ValueError
+            v, message, fix = number_or_problem(cell(k))  # the scenario's number rule (planner.scenario.numbers)
+            if v is None and message.startswith(("must be a plain decimal", "is too")):
+                problems.append(Problem(f"{p.name}, row {r}, column {k}", f"{message} (got {cell(k)!r})", fix))
+            elif v is None or v < 0:
+                problems.append(Problem(f"{p.name}, row {r}, column {k}", f"must be a number >= 0 (got {cell(k)!r})"))
+            else:
                 vals[k] = v
-            except ValueError:
-                problems.append(Problem(f"{p.name}, row {r}, column {k}",
-                                        f"must be a number >= 0 (got {cell(k)!r})"))
         if len(vals) < 2:
             continue
         d = out.setdefault(name, {"price": [], "volume": [], "period": [], "rows": []})
@@ -345,6 +357,16 @@ def read_history(path: str | Path) -> tuple[dict[str, dict[str, list]], list[Pro
         if "period" in col and cell("period"):
             d["period"].append(cell("period"))
     return out, problems
+
+
+def _letter(i: int) -> str:
+    """Spreadsheet column letter of 0-based column ``i`` (A, B, ..., Z, AA ...)."""
+    s = ""
+    i += 1
+    while i:
+        i, rem = divmod(i - 1, 26)
+        s = chr(65 + rem) + s
+    return s
 
 
 def fit_history(path: str | Path, method: str = "volume-on-price", level: float = 0.95,

@@ -8,6 +8,7 @@ template's instructions), which is ignored.
 from __future__ import annotations
 
 import ast
+import re
 import inspect
 import math
 from functools import lru_cache
@@ -16,6 +17,7 @@ from typing import Any
 
 from planner.errors import Problem, ScenarioError
 from planner.files import write_atomic
+from planner.scenario.numbers import Formula
 from planner.scenario.forms.tables import COLUMNS, ORDER, ReadResult, Table, from_tables, to_tables
 
 IGNORED_SHEETS = {"about"}
@@ -88,8 +90,55 @@ def field_notes() -> dict[tuple[str, str], str]:
     return out
 
 
+#: Sheets of the workbook ``planner report`` writes (planner.output.report.workbook) with the inputs as read:
+#: no scenario workbook has them, so any one marks a plan, not a scenario.
+REPORT_SHEETS = {"Input products", "Input usage", "Input resources", "Input options", "Input scenario"}
+
+
+def _is_report(wb) -> bool:
+    """Whether a workbook is a plan written by ``planner report`` (an input sheet, or its Summary sheet's heading)."""
+    names = {ws.title.strip(): ws for ws in wb.worksheets}
+    if REPORT_SHEETS & set(names):
+        return True
+    summary = names.get("Summary")
+    head = [c.value for c in next(summary.iter_rows(max_row=1), ())] if summary is not None else []
+    return head[:3] == ["item", "value", "unit / meaning"]
+
+
+def _formulas_without_values(path: Path) -> dict[str, dict[tuple[int, int], str]]:
+    """Formula cells of each sheet, by (row, column), read only when the file holds formulas at all."""
+    import zipfile
+
+    try:
+        with zipfile.ZipFile(path) as z:
+            sheets = [n for n in z.namelist() if n.startswith("xl/worksheets/") and n.endswith(".xml")]
+            if not any(re.search(rb"<f[ >]", z.read(n)) for n in sheets):
+                return {}
+    except (OSError, zipfile.BadZipFile, KeyError):
+        return {}
+    from openpyxl import load_workbook
+
+    wb = load_workbook(path, read_only=True, data_only=False)
+    out: dict[str, dict[tuple[int, int], str]] = {}
+    for ws in wb.worksheets:
+        cells = {}
+        for r, row in enumerate(ws.iter_rows(values_only=True), start=1):
+            for c, v in enumerate(row, start=1):
+                if isinstance(v, str) and v.startswith("="):
+                    cells[(r, c)] = v
+        if cells:
+            out[ws.title] = cells
+    wb.close()
+    return out
+
+
 def read_xlsx(path: Path) -> ReadResult:
-    """Read a scenario workbook into the raw dict, with every cell's place remembered."""
+    """Read a scenario workbook into the raw dict, with every cell's place remembered.
+
+    A formula cell gives its saved value; one saved without a value (a file
+    written by a program and never opened) is reported as such.  A workbook
+    written by ``planner report`` is refused as a whole: it holds a plan.
+    """
     from openpyxl import load_workbook
 
     try:
@@ -97,12 +146,24 @@ def read_xlsx(path: Path) -> ReadResult:
     except Exception as e:  # openpyxl raises many kinds for a damaged or foreign file
         raise ScenarioError([Problem(str(path), f"cannot be read as an .xlsx workbook ({type(e).__name__}: {e})",
                                      "save it from the spreadsheet program as 'Excel Workbook (.xlsx)'")]) from None
+    if _is_report(wb):
+        raise ScenarioError([Problem(str(path), "this is a report workbook written by planner report: it holds a "
+                                     "plan and the inputs as read, not a scenario",
+                                     "use the scenario file it came from, named on its Summary sheet, or "
+                                     "`planner convert` that file to a workbook")])
+    formulas = None
     tables: dict[str, Table] = {}
     for ws in wb.worksheets:
         name = ws.title.strip()
         if name.lower() in IGNORED_SHEETS:
             continue
         rows = [list(r) for r in ws.iter_rows(values_only=True)]
+        if any(v is None for r in rows for v in r):
+            if formulas is None:
+                formulas = _formulas_without_values(path)
+            for (r, c), f in formulas.get(ws.title, {}).items():
+                if r <= len(rows) and c <= len(rows[r - 1]) and rows[r - 1][c - 1] is None:
+                    rows[r - 1][c - 1] = Formula(f)
         header = rows[0] if rows else []
         tables[name] = Table(name, list(header), [(i, r) for i, r in enumerate(rows[1:], start=2)])
     return from_tables(tables, lambda t: f"sheet {t}", path.stem, path.parent)
