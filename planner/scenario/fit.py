@@ -51,69 +51,13 @@ METHODS = ("volume-on-price", "price-on-volume")
 
 # ---------------------------------------------------------------- statistics
 
-def _betacf(a: float, b: float, x: float) -> float:
-    """Continued fraction of the incomplete beta function (modified Lentz, Numerical Recipes §6.4)."""
-    tiny, eps = 1e-300, 1e-16
-    qab, qap, qam = a + b, a + 1.0, a - 1.0
-    c, d = 1.0, 1.0 - qab * x / qap
-    d = 1.0 / (d if abs(d) > tiny else tiny)
-    h = d
-    for m in range(1, 500):
-        m2 = 2 * m
-        aa = m * (b - m) * x / ((qam + m2) * (a + m2))
-        d = 1.0 + aa * d
-        d = 1.0 / (d if abs(d) > tiny else tiny)
-        c = 1.0 + aa / c
-        c = c if abs(c) > tiny else tiny
-        h *= d * c
-        aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2))
-        d = 1.0 + aa * d
-        d = 1.0 / (d if abs(d) > tiny else tiny)
-        c = 1.0 + aa / c
-        c = c if abs(c) > tiny else tiny
-        delta = d * c
-        h *= delta
-        if abs(delta - 1.0) < eps:
-            break
-    return h
-
-
-def betainc(a: float, b: float, x: float) -> float:
-    """Regularised incomplete beta function I_x(a, b), 0 ≤ x ≤ 1."""
-    if x <= 0.0:
-        return 0.0
-    if x >= 1.0:
-        return 1.0
-    front = math.exp(math.lgamma(a + b) - math.lgamma(a) - math.lgamma(b) + a * math.log(x) + b * math.log1p(-x))
-    if x < (a + 1.0) / (a + b + 2.0):
-        return front * _betacf(a, b, x) / a
-    return 1.0 - front * _betacf(b, a, 1.0 - x) / b
-
-
-def t_cdf(t: float, df: float) -> float:
-    """Student t distribution function with ``df`` degrees of freedom."""
-    tail = 0.5 * betainc(df / 2.0, 0.5, df / (df + t * t))
-    return 1.0 - tail if t >= 0 else tail
-
-
 def t_quantile(p: float, df: float) -> float:
-    """The t value with P(T ≤ t) = p (0 < p < 1), by bisection to machine precision."""
+    """The Student t value with P(T ≤ t) = p (0 < p < 1) for ``df`` degrees of freedom (scipy.stats.t)."""
+    from scipy.stats import t
+
     if not 0.0 < p < 1.0:
         raise ValueError("p must be in (0, 1)")
-    if p < 0.5:
-        return -t_quantile(1.0 - p, df)
-    lo, hi = 0.0, 1.0
-    while t_cdf(hi, df) < p:
-        lo, hi = hi, hi * 2.0
-    for _ in range(200):
-        mid = 0.5 * (lo + hi)
-        if mid in (lo, hi):
-            break
-        if t_cdf(mid, df) < p:
-            lo = mid
-        else:
-            hi = mid
-    return 0.5 * (lo + hi)
+    return float(t.ppf(p, df))
 
 
 @dataclass(frozen=True)

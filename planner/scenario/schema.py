@@ -77,7 +77,8 @@ Name = Annotated[str, Field(min_length=1, max_length=200)]
 
 
 class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, str_strip_whitespace=True)
+    # use_attribute_docstrings: each field's docstring is its description (the workbook's notes read it)
+    model_config = ConfigDict(extra="forbid", frozen=True, str_strip_whitespace=True, use_attribute_docstrings=True)
 
 
 class DemandFit(_Strict):

@@ -40,7 +40,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from planner.errors import Problem, ScenarioError
+from planner.scenario.guard import check_correlations
 from planner.scenario.schema import Scenario
 
 #: Fraction of the scenario's slope below which a drawn slope is truncated.
@@ -185,6 +185,7 @@ def _correlate(s: Scenario, entries: list, cols: list[int], z: np.ndarray) -> np
     """Apply the scenario's correlations to the intercepts' normal scores (Gaussian copula)."""
     if not s.correlations:
         return z
+    check_correlations(s)  # the validator's rule, once more for a Scenario changed in code
     where = {e.product: c for e, c in zip(entries, cols) if e.product is not None and e.field == "price_intercept"}
     names = sorted({n for c in s.correlations for n in c.products}, key=lambda n: where[n])
     pos = {n: i for i, n in enumerate(names)}
@@ -193,12 +194,6 @@ def _correlate(s: Scenario, entries: list, cols: list[int], z: np.ndarray) -> np
         i, j = pos[c.products[0]], pos[c.products[1]]
         R[i, j] = R[j, i] = c.rho
     w, V = np.linalg.eigh(R)  # R = V·diag(w)·Vᵀ; L = V·√w works for ρ = ±1 too, unlike Cholesky
-    if w.min() < -1e-10:
-        pairs = ", ".join(f"{c.products[0]}–{c.products[1]} {c.rho:g}" for c in s.correlations)
-        raise ScenarioError([Problem("correlations", f"the correlations ({pairs}) cannot hold together "
-                                     "(their matrix is not positive definite)",
-                                     "weaken some of them; three products cannot all be strongly "
-                                     "correlated with opposite signs")])
     L = V * np.sqrt(np.maximum(w, 0.0))
     idx = [where[n] for n in names]
     out = z.copy()

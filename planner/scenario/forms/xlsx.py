@@ -7,16 +7,14 @@ template's instructions), which is ignored.
 
 from __future__ import annotations
 
-import ast
 import re
-import inspect
 import math
 from functools import lru_cache
 from pathlib import Path
 from typing import Any
 
 from planner.errors import Problem, ScenarioError
-from planner.files import write_atomic
+from planner.files import set_cell, write_atomic
 from planner.scenario.numbers import Formula
 from planner.scenario.forms.tables import COLUMNS, ORDER, ReadResult, Table, from_tables, to_tables
 
@@ -71,21 +69,14 @@ ABOUT = [
 
 @lru_cache(maxsize=1)
 def field_notes() -> dict[tuple[str, str], str]:
-    """Docstrings of the schema's fields, by (table, column), read from planner/schema.py."""
+    """The schema fields' docstrings (pydantic's field descriptions), by (table, column)."""
     from planner.scenario import schema
 
-    tree = ast.parse(inspect.getsource(schema))
-    by_class: dict[str, dict[str, str]] = {}
-    for node in tree.body:
-        if isinstance(node, ast.ClassDef):
-            docs: dict[str, str] = {}
-            body = node.body
-            for a, b in zip(body, body[1:]):
-                if (isinstance(a, ast.AnnAssign) and isinstance(a.target, ast.Name) and isinstance(b, ast.Expr)
-                        and isinstance(b.value, ast.Constant) and isinstance(b.value.value, str)):
-                    docs[a.target.id] = " ".join(b.value.value.split())
-            by_class[node.name] = docs
-    out = {(t, f): d for t, cls in _CLASSES.items() for f, d in by_class.get(cls, {}).items()}
+    out = {}
+    for table, cls in _CLASSES.items():
+        for name, info in getattr(schema, cls).model_fields.items():
+            if info.description:
+                out[(table, name)] = " ".join(info.description.split())
     out.update(NOTES)
     return out
 
@@ -170,10 +161,8 @@ def read_xlsx(path: Path) -> ReadResult:
 
 
 def _put(ws, row: int, col: int, value: Any) -> None:
-    cell = ws.cell(row=row, column=col, value=value)
-    if isinstance(value, str) and value.startswith("="):
-        cell.data_type = "s"  # text, never a formula
-    elif isinstance(value, float) and math.isfinite(value) and float(f"{value:.16g}") != value:
+    cell = set_cell(ws, row, col, value)  # text is always text, never a formula (planner.files)
+    if isinstance(value, float) and math.isfinite(value) and float(f"{value:.16g}") != value:
         # openpyxl writes numbers with 16 significant digits; this one needs 17 to come back exactly.
         # The cell stays numeric (type 'n'); only the text written for it is the exact repr.
         cell._value = repr(value)
