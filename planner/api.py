@@ -96,7 +96,8 @@ def build_plan(s: Scenario, d: MixData, sol: Solution, warnings: list[str] | Non
         products.append(ProductPlan(
             name=p.name, running=running, volume=D, price=price, revenue=revenue, variable_cost=var_cost,
             contribution=revenue - var_cost, fixed_cost=fixed, profit=revenue - var_cost - fixed,
-            unit=p.unit, standalone=econ[k], must_run=bool(d.must_run[k])))
+            unit=p.unit, standalone=econ[k], must_run=bool(d.must_run[k]),
+            forced="must_run" if p.must_run else ("min_volume" if p.min_volume > 0 else "")))
     used = d.used(vol)
     value = capacity_value(sol.duals, d.capacity)
     resources = []
