@@ -207,3 +207,18 @@ def test_every_highs_instance_is_made_by_the_adapter():
     makers = [str(f.relative_to(root)) for f in root.rglob("*.py")
               if "highspy.Highs()" in f.read_text(encoding="utf-8") and f.name != "highs.py"]
     assert makers == []
+
+
+def test_kkt_polish_corrects_a_misread_active_set():
+    """max 10x − x² + y − y² s.t. x + y ≤ 3, 0 ≤ x, y (by hand: with y > 0, 10 − 2x = 1 − 2y and x + y = 3
+    give y = −0.75, so y = 0, x = 3, λ = 10 − 2·3 = 4, and y's reduced profit 1 − 4 < 0 keeps it at 0).
+    A guess slightly inside (as an interior-point answer is) reads y as free; the polish corrects it."""
+    from planner.engine.kkt import polish
+
+    c, b = np.array([10.0, 1.0]), np.array([1.0, 1.0])
+    H, cap = np.array([[1.0, 1.0]]), np.array([3.0])
+    lo, hi = np.zeros(2), np.full(2, np.inf)
+    got = polish(c, b, H, cap, lo, hi, np.array([2.99, 0.01]), np.array([4.02]))
+    assert got is not None
+    x, lam = got
+    assert x == pytest.approx([3.0, 0.0], abs=1e-12) and lam == pytest.approx([4.0], abs=1e-12)
