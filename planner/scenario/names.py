@@ -28,6 +28,7 @@ import difflib
 import itertools
 import re
 import unicodedata
+from functools import lru_cache
 
 #: Bidirectional controls: embeddings, overrides, isolates and marks.
 _BIDI = set(range(0x202A, 0x202F)) | set(range(0x2066, 0x206A)) | {0x200E, 0x200F, 0x061C}
@@ -56,6 +57,7 @@ def character_kind(ch: str) -> str:
     return _kind(ch) or "a character"
 
 
+@lru_cache(maxsize=1 << 16)  # the same few resource names are checked in every product's usage
 def bad_character(text: str, line_breaks: bool = False) -> tuple[int, str, str] | None:
     """The first refused character in ``text``: (1-based position, 'U+200B', what it is); None if all are fine.
 

@@ -18,7 +18,7 @@ from pydantic import ValidationError
 from planner.errors import Problem, ScenarioError
 from planner.scenario.demand import expand_demand
 from planner.scenario.messages import FIELDS, label, pydantic_problems, where_of
-from planner.scenario.names import character_problem, did_you_mean, how_alike, name_key, shown
+from planner.scenario.names import bad_character, character_problem, did_you_mean, how_alike, name_key, shown
 from planner.scenario.numbers import Unusable
 from planner.scenario.rawdict import clean_name, indexed, number
 from planner.scenario.schema import Scenario
@@ -89,7 +89,8 @@ def _character_problems(raw: dict[str, Any]) -> list[Problem]:
             for key in _KEYED.get(section, ()):
                 if isinstance(e.get(key), dict):
                     for k in e[key]:
-                        check(f"{at}.{key}.{shown(k) if isinstance(k, str) else k}", k)
+                        if isinstance(k, str) and bad_character(k) is not None:  # (the location only when needed)
+                            check(f"{at}.{key}.{shown(k)}", k)
             if section == "correlations" and isinstance(e.get("products"), (list, tuple)):
                 for n in e["products"]:
                     check(f"{at}.products", n)
