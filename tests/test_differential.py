@@ -110,3 +110,49 @@ def test_the_differential_check_can_fail(monkeypatch):
     monkeypatch.setattr(planner, "plan", poorer)
     found = compare(raw, scip=False)
     assert any("below the reference" in f for f in found), found
+
+
+def _one_product_zero_optimum() -> dict:
+    """Hand check: the press holds 971/2.99 = 324.75 lamps (below the peak (281 − 66)/(2·0.0607) = 1,771),
+    which contribute at most 215·324.75 − 0.0607·324.75² ≈ 63,420, far below the fixed cost of 221,000:
+    stopping it is optimal, profit 0."""
+    return {"name": "zero optimum", "products": [
+        {"name": "lamp", "price_intercept": 281.0, "price_slope": 0.0607, "unit_cost": 66.0,
+         "usage": {"press": 2.99}, "fixed_cost": 221000.0}],
+        "resources": [{"name": "press", "capacity": 971.0}]}
+
+
+@pytest.mark.xfail(strict=True, reason=_ZERO + " (one product; status 'error', gap 1e-6)")
+def test_zero_optimum_is_certified_at_a_tight_gap():
+    from planner import plan, validate_scenario
+
+    s, _ = validate_scenario(_one_product_zero_optimum())
+    p = plan(s, rel_gap=1e-9)
+    assert p.profit == 0.0 and not p.products[0].running  # right plan (hand check above)
+    assert p.status == "optimal" and p.gap <= 1e-9, (p.status, p.gap)
+
+
+def _plant_cost_case() -> dict:
+    """Seed 169 of the generator with the plant-wide fixed cost set to 99 % of the optimum (17,044.44
+    before it; the enumeration and SCIP agree): profit 170.44 after it."""
+    return {"name": "plant cost", "plant_fixed_cost": 16874.0, "products": [
+        {"name": "p0", "price_intercept": 88.7, "price_slope": 0.132, "unit_cost": 18.6, "fixed_cost": 2650.0,
+         "usage": {"r0": 2.11, "r1": 2.38, "r2": 2.48}},
+        {"name": "p1", "price_intercept": 113.0, "price_slope": 0.0, "unit_cost": 71.4, "max_volume": 1450.0,
+         "usage": {"r0": 1.44, "r1": 2.16, "r2": 0.296}}],
+        "resources": [{"name": "r0", "capacity": 590.0}, {"name": "r1", "capacity": 1160.0},
+                      {"name": "r2", "capacity": 297.0}, {"name": "r3", "capacity": 419.0}]}
+
+
+@pytest.mark.xfail(strict=True, reason=_PLANT + " (two products, default gap 1e-4: 'optimal' at 1.39e-3)")
+def test_optimal_means_the_gap_asked_for_after_the_plant_fixed_cost():
+    from planner import plan, validate_scenario
+
+    from .reference import enumerate_plans
+
+    raw = _plant_cost_case()
+    s, _ = validate_scenario(raw)
+    ref = enumerate_plans(s).profit - raw["plant_fixed_cost"]
+    p = plan(s)
+    assert p.profit == pytest.approx(ref, rel=1e-4)  # the plan itself is right
+    assert p.status != "optimal" or p.gap <= 1e-4, (p.status, p.gap)

@@ -161,7 +161,9 @@ LIMIT_KNOWN = {
 }
 
 _DEFAULT_LIMIT = [("huge_fixed", 0), ("huge_fixed", 2), ("tiny_usage", 0), ("mixed", 0)]
-_MORE_LIMIT = [("huge_fixed", 1), ("huge_fixed", 3), ("tiny_slopes", 0), ("tiny_slopes", 3), ("tiny_usage", 1),
+# (tiny_slopes 3 is left out: the command took 6.3–7.3 s in three runs and 10.1 s once on a loaded
+# machine, just either side of the 8.5 s allowance, so it would pass or fail with the load.)
+_MORE_LIMIT = [("huge_fixed", 1), ("huge_fixed", 3), ("tiny_slopes", 0), ("tiny_usage", 1),
                ("tiny_usage", 2), ("mixed", 1), ("mixed", 2)]
 
 
