@@ -31,7 +31,8 @@ from planner.scenario.schema import Scenario
 
 def engine_for(s: Scenario, d: MixData | None = None, threads: int = 1, seed: int = 0) -> Engine:
     """The engine of a validated scenario (its arrays ``d`` if already made), with its units for messages."""
-    return Engine(mix_data(s) if d is None else d, threads, seed, units={r.name: r.unit for r in s.resources})
+    return Engine(mix_data(s) if d is None else d, threads, seed, units={r.name: r.unit for r in s.resources},
+                  offset=s.plant_fixed_cost)
 
 
 def check_gap(rel_gap: float) -> None:

@@ -7,7 +7,7 @@ import time
 import numpy as np
 
 from planner.errors import PlannerError
-from planner.engine import Engine
+from planner.api import engine_for
 from planner.output.plan import Plan
 from planner.scenario.arrays import mix_data
 from planner.scenario.schema import Scenario
@@ -58,7 +58,7 @@ def add_capacity_analysis(p: Plan, s: Scenario, choose: bool = False, rel_gap: f
 def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float | None,
              hard: float | None) -> Plan:
     d = mix_data(s)
-    engine = Engine(d, units={r.name: r.unit for r in s.resources})
+    engine = engine_for(s, d)
     slate = plan_slate(p, d.can_stop)
     qp = engine.slate(slate)
     duals = qp.duals if qp.status == "optimal" else np.array([r.shadow_price for r in p.resources])

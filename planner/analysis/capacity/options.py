@@ -72,8 +72,8 @@ def value_options(s: Scenario, d: MixData, base_slate: np.ndarray, duals: np.nda
     if not s.options:
         return float("nan"), []
     dd = with_options(d, s)
-    engine = engine or Engine(d)
-    offered = Engine(dd)
+    engine = engine or Engine(d, offset=s.plant_fixed_cost)
+    offered = Engine(dd, offset=s.plant_fixed_cost)
     base = resolve(engine, d.capacity, rel_gap, known=[base_slate], deadline=deadline)
     base_profit = base.objective - s.plant_fixed_cost
     out = []
@@ -110,7 +110,7 @@ def choose_options(s: Scenario, d: MixData, base_profit: float, base_slate: np.n
                    rel_gap: float = 1e-7, deadline: float | None = None) -> dict[str, Any]:
     """The best set of options chosen jointly (binary shifts, continuous overtime and material)."""
     dd = with_options(d, s)
-    sol = _certified(Engine(dd).solve(rel_gap=rel_gap, known=[np.asarray(base_slate, dtype=bool)],
+    sol = _certified(Engine(dd, offset=s.plant_fixed_cost).solve(rel_gap=rel_gap, known=[np.asarray(base_slate, dtype=bool)],
                                       deadline=deadline))
     picks = []
     for k, o in enumerate(s.options):
