@@ -69,7 +69,7 @@ def page_html(s: Scenario) -> str:
     cur = escape(visible(s.currency))
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
             "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">"
-            f"<title>{escape(visible(s.name))} — what if</title><link rel=\"stylesheet\" href=\"/app.css\"></head>"
+            f"<title>{escape(visible(s.name))} — what if</title><link rel=\"icon\" href=\"data:,\"><link rel=\"stylesheet\" href=\"/app.css\"></head>"
             "<body><main>"
             f"<h1>{escape(visible(s.name))}: what if …</h1>"
             f"<p class=\"sub\">Change a number and the plan is made again. Amounts per {escape(visible(s.period))} "

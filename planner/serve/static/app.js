@@ -112,7 +112,7 @@
     } else {
       text($("change"), "the scenario as written");
     }
-    text($("gap"), (100 * plan.gap).toPrecision(2) + " %");
+    text($("gap"), (100 * plan.gap).toFixed(2) + " %");
     text($("status"), plan.status === "optimal" ? "optimal: no plan beats " + money(plan.bound)
                                                  : "time limit reached; bound " + money(plan.bound));
     const running = plan.products.filter((p) => p.running).length;
