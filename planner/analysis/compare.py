@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from planner.errors import InfeasibleError, PlannerError, ScenarioError, SolverError
+from planner.errors import EXIT_BAD_INPUT, InfeasibleError, PlannerError, ScenarioError, SolverError
 from planner.output.plan import LABOUR_NOTE, Plan
 from planner.scenario.names import did_you_mean
 from planner.scenario.schema import Scenario
@@ -31,6 +31,12 @@ from planner.scenario.variants import apply_changes, describe, touches_people
 DASK_FROM = 6
 #: How long to try reaching a scheduler address.
 CONNECT_TIMEOUT = "10s"
+
+
+class CompareError(PlannerError):
+    """What to compare is not clear (a variant the scenario does not define, no variants): bad input."""
+
+    exit_code = EXIT_BAD_INPUT
 
 
 @dataclass
@@ -139,7 +145,7 @@ def choose_variants(s: Scenario, names: list[str] | None) -> list[str]:
     if unknown:
         hints = "; ".join(f"{n!r}: {did_you_mean(n, defined) or 'not defined'}" for n in unknown)
         listed = ", ".join(repr(n) for n in defined) if defined else "none: add a 'variants:' list to the scenario"
-        raise PlannerError(f"--variant names a variant the scenario does not define ({hints}); its variants: {listed}")
+        raise CompareError(f"--variant names a variant the scenario does not define ({hints}); its variants: {listed}")
     return list(dict.fromkeys(names))
 
 
@@ -149,7 +155,7 @@ def compare_variants(s: Scenario, names: list[str] | None = None, rel_gap: float
     """The base plan and the plan of each variant of ``s`` (those named, else all); see the module docstring."""
     chosen = choose_variants(s, names)
     if not chosen:
-        raise PlannerError("the scenario has no variants to compare: add a 'variants:' list (see README, "
+        raise CompareError("the scenario has no variants to compare: add a 'variants:' list (see README, "
                            "'What-if'), or compare whole files: planner compare A.yaml B.yaml")
     entries = [Entry(s.name, s.description)]
     scenarios = [s]

@@ -7,7 +7,6 @@ from pathlib import Path
 
 import click
 
-from planner.errors import PlannerError
 
 
 def register(main: click.Group) -> None:
@@ -42,12 +41,12 @@ def register(main: click.Group) -> None:
         Variants are listed in the scenario under 'variants:' (see README, "What-if"). With several files
         the first is the base.  --time-limit bounds each plan.
         """
-        from planner.analysis.compare import compare_files, compare_variants
+        from planner.analysis.compare import CompareError, compare_files, compare_variants
         from planner.files import check_folder, check_target, write_text_atomic
         from planner.output.compare.terminal import print_comparison
 
         if len(scenarios) > 1 and variants:
-            raise PlannerError("--variant names a variant of one scenario: give one SCENARIO with --variant, or "
+            raise CompareError("--variant names a variant of one scenario: give one SCENARIO with --variant, or "
                                "several files without it")
         if out_dir is not None:  # before any solve: an output that cannot be written fails at once
             check_folder(out_dir, "the comparison (--out)")

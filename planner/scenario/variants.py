@@ -173,7 +173,7 @@ def _apply(s: Scenario, changes: Iterable[Change], where: str) -> tuple[_Applied
             new = _new_value(c, old)
             if new is None:
                 problems.append(Problem(at, f"products[{p.name}] has no {c.field} to {_how(c).split()[0]}",
-                                        f"give it one with set: (the cap in {p.unit} per {s.period})"))
+                                        f"give it one with set: the cap in {p.unit} per {s.period}"))
                 continue
             row[c.field] = new
             out.by[("products", p.name, c.field)] = at
@@ -286,7 +286,7 @@ def apply_changes(s: Scenario, changes: Iterable[Change], where: str = "changes"
     capacities and the plant-wide fixed cost).
     """
     applied, problems = _apply(s, list(changes), where)
-    problems += _checked(applied, where)
+    problems = sorted(problems + _checked(applied, where), key=lambda p: _position(p.where))
     if problems:
         raise ScenarioError(problems)
     return _changed(applied)
@@ -303,7 +303,7 @@ def result_problems(s: Scenario) -> list[Problem]:
     problems: list[Problem] = []
     for v in s.variants:
         applied, found = _apply(s, v.changes, f"variants[{v.name}].changes")
-        problems += found + _checked(applied, f"variants[{v.name}]")
+        problems += sorted(found + _checked(applied, f"variants[{v.name}]"), key=lambda p: _position(p.where))
     return problems
 
 
@@ -348,7 +348,7 @@ def read_changes(s: Scenario, items: Any, where: str = "changes") -> list[Change
     if problems:
         raise ScenarioError(problems)
     applied, found = _apply(s, out, where)
-    found += _checked(applied, where)
+    found = sorted(found + _checked(applied, where), key=lambda p: _position(p.where))
     if found:
         raise ScenarioError(found)
     return out
