@@ -39,7 +39,7 @@ def register(main: click.Group) -> None:
         """Plan SCENARIO and its variants side by side; or compare whole files: compare A.yaml B.xlsx ...
 
         Variants are listed in the scenario under 'variants:' (see README, "What-if"). With several files
-        the first is the base.  --time-limit bounds each plan.
+        the first is the base.  The time limit bounds each plan on its own.
         """
         from planner.analysis.compare import CompareError, compare_files, compare_variants
         from planner.files import check_folder, check_target, write_text_atomic

@@ -215,13 +215,12 @@ def to_tables(raw: dict[str, Any], wide_usage: bool = False) -> dict[str, tuple[
 
 
 def _variant_tables(variants: list[dict]) -> dict[str, tuple[list[str], list[list[Any]]]]:
-    """Variants as two tables (variants, and their changes one row each), or as one with ``changes:json``
-    where rows could not say which variant a change belongs to exactly (no changes, names that repeat)."""
+    """Variants as two tables (variants; their changes one row each), or one with ``changes:json`` where rows
+    could not say exactly which variant a change is of (no changes, names that repeat)."""
     names = [v.get("name").strip() if isinstance(v.get("name"), str) else None for v in variants]
-    split = (all(isinstance(v.get("changes"), list) and v["changes"] and all(isinstance(c, dict) and "variant" not in c
-                                                                            for c in v["changes"]) for v in variants)
-             and None not in names and len(set(names)) == len(names))
-    if not split:
+    if not (all(isinstance(v.get("changes"), list) and v["changes"] and all(isinstance(c, dict) and "variant" not in c
+                                                                           for c in v["changes"]) for v in variants)
+            and None not in names and len(set(names)) == len(names)):
         return {"variants": _rows(variants, _columns(variants, COLUMNS["variants"]))}
     rows = [{"variant": v["name"], **c} for v in variants for c in v["changes"]]
     return {"variants": _rows(variants, _columns(variants, COLUMNS["variants"], {"changes"})),
@@ -478,25 +477,18 @@ def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_n
         raw["correlations"] = cors
         rd.where["correlations"] = rd.at("correlations")
     if "variants" in tables:
-        variants = rd.entries(tables["variants"], "variants", "name", ["name"])
-        raw["variants"] = variants
-        vnames = {v["name"].strip(): (i, v) for i, v in enumerate(variants) if isinstance(v.get("name"), str)}
-        for r, rec in (rd.records(tables["variant_changes"], ["variant", "field"]) if "variant_changes" in tables
-                       else []):
+        raw["variants"] = rd.entries(tables["variants"], "variants", "name", ["name"])
+        vnames = {v["name"].strip(): (i, v) for i, v in enumerate(raw["variants"]) if isinstance(v.get("name"), str)}
+        for r, rec in rd.records(tables["variant_changes"], ["variant", "field"]) if "variant_changes" in tables else []:
             name = rec.pop("variant", None)
-            if name is None:
+            hit = owner("variant_changes", r, "variant", name, vnames) if name is not None else \
                 rd.problems.append(Problem(rd.at("variant_changes", r, "variant"), "is empty", "name the variant"))
-                continue
-            hit = owner("variant_changes", r, "variant", name, vnames)
-            if hit is None:
-                continue
-            _, v = hit
-            changes = v.setdefault("changes", [])
-            label = f"variants[{v['name'].strip()}].changes[{len(changes) + 1}]"
-            rd.where.setdefault(label, rd.at("variant_changes", r))
-            for c in rec:
-                rd.where.setdefault(f"{label}.{c}", rd.at("variant_changes", r, c))
-            changes.append(rec)
+            if hit is not None:
+                changes = hit[1].setdefault("changes", [])
+                label = f"variants[{hit[1]['name'].strip()}].changes[{len(changes) + 1}]"
+                rd.where.setdefault(label, rd.at("variant_changes", r))
+                rd.where.update({f"{label}.{c}": rd.at("variant_changes", r, c) for c in rec})
+                changes.append(rec)
     elif "variant_changes" in tables:
         rd.problems.append(Problem(place("variants"), "is missing but variant_changes is given",
                                    "add the variants table (name, description)"))
