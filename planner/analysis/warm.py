@@ -4,7 +4,8 @@
 each list of changes (the change objects of a variant, :mod:`planner.scenario.variants`) with the
 Plan of the changed scenario.  Changes of capacities, price intercepts and slopes, unit and fixed
 costs, options taken and the plant-wide fixed cost are re-solves of that engine
-(``Engine.solve(capacity=, a=, b=, v=, F=, warm=True)``: the last solve's multipliers carry over);
+(``Engine.solve(capacity=, a=, b=, v=, F=, warm=True)``: the last solve's multipliers carry over, and
+the last slates are solved first as incumbents, so the dual bound stops once it certifies one);
 a change of a cap, a commitment or a minimum run changes the model's bounds, so that scenario is
 planned afresh (:func:`planner.api.plan`).  Either way the answer is certified to the gap: the
 Plan is the plan of the changed scenario to within it, whatever came before.
@@ -18,6 +19,8 @@ from __future__ import annotations
 import math
 import time
 
+import numpy as np
+
 from planner.api import build_plan, check_gap, engine_for
 from planner.engine.infeasible import explain as explain_infeasible
 from planner.errors import PlannerError, SolverError
@@ -27,6 +30,8 @@ from planner.scenario.schema import Change, Scenario
 from planner.scenario.validate import scenario_warnings
 from planner.scenario.variants import apply_changes, describe, touches_people
 
+#: How many recent slates (which products run) each warm re-plan solves first as incumbents.
+KNOWN_SLATES = 2
 #: Fields whose changes the warm engine re-solves with (the rest change the model's bounds).
 WARM_FIELDS = frozenset({"price_intercept", "price_slope", "unit_cost", "fixed_cost", "capacity", "taken",
                          "plant_fixed_cost"})
@@ -44,6 +49,7 @@ class WarmPlanner:
         self.base = mix_data(scenario)
         self.engine = engine_for(scenario, self.base)
         self.solves = {"warm": 0, "fresh": 0}
+        self.slates: list[np.ndarray] = []  # running masks of the last warm plans: tried first as incumbents
 
     def plan(self, changes: list[Change]) -> Plan:
         """The Plan of the scenario with ``changes`` applied (ScenarioError / InfeasibleError / SolverError).
@@ -59,7 +65,7 @@ class WarmPlanner:
             explain_infeasible(s, d)  # commitments that cannot fit: named, in the scenario's units
             try:
                 sol = self.engine.solve(rel_gap=self.rel_gap, time_limit=self.time_limit, warm=True,
-                                        capacity=d.capacity, a=d.a, b=d.b, v=d.v, F=d.F)
+                                        known=list(self.slates), capacity=d.capacity, a=d.a, b=d.b, v=d.v, F=d.F)
             except PlannerError:
                 raise
             except Exception as e:  # a solver library's own failure: a message, never a traceback
@@ -68,6 +74,8 @@ class WarmPlanner:
                 raise SolverError(f"the plan could not be certified to the gap asked for ({'; '.join(sol.messages)})")
             p = build_plan(s, d, sol)
             self.solves["warm"] += 1
+            if not any(np.array_equal(sol.running, z) for z in self.slates):
+                self.slates = ([np.asarray(sol.running, dtype=bool)] + self.slates)[:KNOWN_SLATES]
         else:
             from planner.api import plan
 
