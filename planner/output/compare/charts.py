@@ -96,7 +96,7 @@ def change_chart(data: dict[str, Any]) -> Chart:
         pad = 0.45 * span
         ax.set_xlim(lo - (pad if lo < 0 else 0.05 * span), hi + (pad if hi > 0 else 0.05 * span))
         ax.set_xlabel(f"change in profit against the base ({cur} per {per})")
-        ax.set_title("What each variant changes")
+        ax.set_title("Change in profit against the base")
         money_axis(ax, cur, axis="x")
         ax.xaxis.set_major_locator(MaxNLocator(4 if len(cur) < 3 else 3))
     return Chart(key="profit-change", title="Change in profit against the base",
