@@ -159,12 +159,42 @@ def test_an_infeasible_change_names_the_limits(server):
     (b"[]", "application/json", 400, 'the body must be a JSON object: {"changes": [...]}'),
     (b'{"changes": [], "path": "/etc/passwd"}', "application/json", 400, "unknown key in the body: 'path'"),
     (b"[" * 100_000 + b"]" * 100_000, "application/json", 400, "the request body is nested too deeply"),
-    (b" " * (1 << 20 | 1), "application/json", 413, "the request body is larger than 1,048,576 bytes"),
-])
+], ids=["truncated", "nan", "not-utf8", "text-plain", "a-list", "a-path", "too-deep"])
 def test_bodies_that_are_not_a_request_are_refused(server, body, content_type, code, start):
     url, _, _ = server
     status, answer, _ = call(url + "/api/plan", body, content_type=content_type)
     assert status == code and answer["error"].startswith(start), answer
+
+
+@pytest.mark.parametrize("chunked", [False, True], ids=["declared-length", "streamed"])
+def test_a_body_over_the_limit_is_refused_before_it_is_read(server, chunked):
+    """413 on the declared length alone, or once a streamed (chunked) body passes 1 MiB."""
+    import http.client
+    from urllib.parse import urlsplit
+
+    url, _, _ = server
+    conn = http.client.HTTPConnection(urlsplit(url).hostname, urlsplit(url).port, timeout=60)
+    try:
+        conn.putrequest("POST", "/api/plan")
+        conn.putheader("Content-Type", "application/json")
+        if chunked:
+            conn.putheader("Transfer-Encoding", "chunked")
+            conn.endheaders()
+            piece = b" " * 65536
+            try:
+                for _ in range(17):  # 17 × 64 KiB > 1 MiB
+                    conn.send(b"%x\r\n%s\r\n" % (len(piece), piece))
+            except (BrokenPipeError, ConnectionResetError):
+                pass  # the server answered and closed: read its answer
+        else:
+            conn.putheader("Content-Length", str((1 << 20) + 1))
+            conn.endheaders()
+        res = conn.getresponse()
+        answer = json.loads(res.read())
+    finally:
+        conn.close()
+    assert res.status == 413
+    assert answer["error"] == "the request body is larger than 1,048,576 bytes; send fewer changes"
 
 
 def test_other_hosts_paths_and_methods_are_refused(server):

@@ -75,17 +75,13 @@ def build_book(data: dict[str, Any]) -> Workbook:
             line("description", lambda v: v.get("description", "")),
             line("no plan because", lambda v: v.get("message", "")),
             line("labour note", lambda v: LABOUR_NOTE if v.get("labour_note") else "")]
-    ws_formats = {j: m0 for j in range(2, len(cols) + 2)}
-    _sheet(wb, "Comparison", head, rows[:3], ws_formats)
+    row_formats = [m0, m0, None, "0.00E+00", None, m2]  # by row: profit, change, status, gap, ..., shadow price
+    _sheet(wb, "Comparison", head, rows)
     ws = wb["Comparison"]
-    for i, row in enumerate(rows[3:], start=5):
-        for j, value in enumerate(row, start=1):
-            if value is not None and value != "":
-                cell = set_cell(ws, i, j, value)
-                if i == 5 and j > 1:
-                    cell.number_format = "0.00E+00"
-                if i == 7 and j > 1:
-                    cell.number_format = m2
+    for i, fmt in enumerate(row_formats, start=2):
+        for j in range(2, len(cols) + 2):
+            if fmt and isinstance(ws.cell(row=i, column=j).value, (int, float)):
+                ws.cell(row=i, column=j).number_format = fmt
     prod = [[v["name"], p["name"], p["running"], p["volume"], p["price"], p["profit"], p["unit"]]
             for v in cols for p in v.get("products", [])]
     _sheet(wb, "Products", ["variant", "product", "running", "volume", "price", "profit", "unit"], prod,
