@@ -284,6 +284,26 @@ EXPECTED: dict[str, list[str]] = {
         'line 6, column 16 (products[bracket].unit_cost): must be a plain decimal number: twenty is not a number YAML can read (write the amount in digits, e.g. 1200 or 0.75)',
         'line 10, column 15 (resources[mill].capacity): must be a plain decimal number: 0x_ is not a number YAML can read (write the amount in digits, e.g. 1200 or 0.75)',
     ],
+    '76_variant_mistakes.yaml': [
+        "variants[more mill].changes[5].sett: unknown key (did you mean 'set'?)",
+        'variants[More mill]: differs from variants[more mill] only in case (names must differ by more than case, spacing or how accents are encoded: rename one)',
+        "variants[more mill].changes[1].resource: names a resource that is not defined ('mil') (did you mean 'mill'?)",
+        "variants[more mill].changes[2].field: capacity is not a field of a product (a product's field is price_intercept, price_slope, unit_cost, fixed_cost, max_volume, min_volume or min_run)",
+        "variants[more mill].changes[3]: needs exactly one of 'product', 'resource', 'option' or 'plant: true' (gives 'product' and 'resource') (field unit_cost goes with 'product')",
+        "variants[more mill].changes[4]: needs exactly one of 'product', 'resource', 'option' or 'plant: true' (names no target) (field plant_fixed_cost goes with 'plant: true')",
+        "variants[more mill].changes[5]: needs exactly one of 'set', 'add' or 'scale' (gives none) (set: the new value; add: an amount added to it; scale: a factor it is multiplied by)",
+        "variants[more mill].changes[6]: needs exactly one of 'set', 'add' or 'scale' (gives add and scale) (set: the new value; add: an amount added to it; scale: a factor it is multiplied by)",
+        "variants[More mill].changes[1].option: names an option that is not defined ('overtme') (did you mean 'overtime'?)",
+    ],
+    '77_variant_breaks_the_schema.yaml': [
+        'variants[cheaper].changes[1]: makes products[bracket].unit_cost -5, but it must be >= 0 (change it so the result is 0 or more)',
+        'variants[cheaper].changes[2]: products[shelf] has no max_volume to scale (give it one with set: the cap in units per quarter)',
+        'variants[half shifts].changes[1]: makes the share of options[Saturday shift] taken 0.5, but it is all or nothing: 0 or 1 (set: 1 to take it, set: 0 to leave it)',
+        'variants[half shifts].changes[2]: makes the share of options[overtime] taken 1.5, but it must be from 0 to 1 (set: 1 takes all of it, set: 0.5 half)',
+        'variants[half shifts].changes[3]: makes plant_fixed_cost -50, but it must be >= 0 (change it so the result is 0 or more)',
+        'variants[big commitment].changes[1]: makes products[bracket] commit 1000 above its max_volume 900 (lower the commitment or raise the cap)',
+        'variants[big commitment].changes[2]: makes resources[mill].capacity 4.16e+15, but it is too large (more than 1e+15) (use a larger unit, such as thousands or tonnes, so amounts stay within 1e15)',
+    ],
 }
 
 

@@ -84,6 +84,26 @@ def scenarios(draw) -> dict:
             else:
                 options.append({"name": n, "adds_up_to": {r: draw(_POSITIVE) for r in res},
                                 "cost_per_unit": draw(_AMOUNT)})
+    variants = []
+    for n in _unique(draw(st.lists(_NAME, max_size=3))):
+        changes = []
+        for _ in range(draw(st.integers(1, 3))):
+            kind = draw(st.sampled_from(["product", "resource", "option", "plant"]))
+            if kind == "resource" and resources:
+                changes.append({"resource": draw(st.sampled_from([r["name"] for r in resources])),
+                                "field": "capacity", "add": draw(_AMOUNT)})
+            elif kind == "option" and options:
+                o = draw(st.sampled_from(options))
+                changes.append({"option": o["name"], "field": "taken",
+                                "set": 1 if "adds" in o else draw(st.sampled_from([0, 0.5, 1]))})
+            elif kind == "plant":
+                changes.append({"plant": True, "field": "plant_fixed_cost", "add": draw(_AMOUNT)})
+            else:
+                changes.append({"product": draw(st.sampled_from([p["name"] for p in products])),
+                                "field": draw(st.sampled_from(["unit_cost", "fixed_cost", "max_volume"])),
+                                "scale": draw(st.floats(min_value=0.5, max_value=1.5))})
+        variants.append({"name": n, **draw(st.fixed_dictionaries({}, optional={"description": _TEXT})),
+                         "changes": changes})
     uncertain = [p["name"] for p in products if draw(st.booleans())]
     sections = {
         "options": options,
@@ -91,6 +111,7 @@ def scenarios(draw) -> dict:
                         for n in uncertain],
         "correlations": ([{"products": uncertain[:2], "rho": draw(_RHO)}]
                          if len(uncertain) >= 2 and draw(st.booleans()) else []),
+        "variants": variants,
     }
     for key, entries in sections.items():
         if entries or draw(st.booleans()):  # an empty list, as a template gives it, or no key at all
@@ -136,7 +157,7 @@ def test_a_filled_template_converts_to_every_form(tmp_path):
     wb["resources"].append(["lathe", 600, "h", "work_centre"])
     wb.save(tmp_path / "t.xlsx")
     raw = read_raw(tmp_path / "t.xlsx")
-    assert raw["options"] == raw["uncertainty"] == raw["correlations"] == []
+    assert raw["options"] == raw["uncertainty"] == raw["correlations"] == raw["variants"] == []
     for source, target in (("t.xlsx", "t_csv"), ("t_csv", "t2.xlsx"), ("t2.xlsx", "t.yaml"), ("t.yaml", "u_csv")):
         res = run.invoke(main, ["convert", str(tmp_path / source), str(tmp_path / target)])
         assert res.exit_code == 0, res.output

@@ -48,7 +48,8 @@ GAP_WHY = ("a plan within this gap is called optimal, so a looser one would prom
 CAPACITY_MAX = 1e15
 
 #: Modules that add commands to ``main`` when imported (each has ``register(main)``).
-COMMAND_MODULES: list[str] = ["planner.cli.data", "planner.cli.report", "planner.cli.risk", "planner.cli.sweep"]
+COMMAND_MODULES: list[str] = ["planner.cli.data", "planner.cli.report", "planner.cli.risk", "planner.cli.sweep",
+                              "planner.cli.compare", "planner.cli.serve"]
 
 
 def friendly(func):

@@ -18,7 +18,7 @@ from planner.errors import Problem
 from planner.scenario.names import did_you_mean, shown
 from planner.scenario.numbers import SIZE_FIXES, Unusable
 from planner.scenario.rawdict import clean_name, entries
-from planner.scenario.schema import Correlation, Option, Product, Resource, Scenario, Uncertainty
+from planner.scenario.schema import Change, Correlation, Option, Product, Resource, Scenario, Uncertainty, Variant
 from planner.scenario.units import amount_hint
 
 FIELDS = {
@@ -28,6 +28,8 @@ FIELDS = {
     "options": set(Option.model_fields),
     "uncertainty": set(Uncertainty.model_fields),
     "correlations": set(Correlation.model_fields),
+    "variants": set(Variant.model_fields),
+    "changes": set(Change.model_fields),
 }
 
 
@@ -48,7 +50,7 @@ def label(raw: dict[str, Any], section: str, index: int) -> str:
         name = entry.get("name") if isinstance(entry, dict) else None
     except (KeyError, IndexError, TypeError):
         name = None
-    name = clean_name(name)
+    name = clean_name(name) if section != "changes" else None  # changes have no names: by position
     return f"{section}[{name}]" if name else f"{section}[{index + 1}]"
 
 
@@ -57,7 +59,8 @@ def where_of(raw: dict[str, Any], loc: tuple[Any, ...]) -> str:
     i = 0
     while i < len(loc):
         part = loc[i]
-        if part in ("products", "resources", "options", "uncertainty", "correlations") and i + 1 < len(loc) and isinstance(loc[i + 1], int):
+        if part in ("products", "resources", "options", "uncertainty", "correlations", "variants", "changes") \
+                and i + 1 < len(loc) and isinstance(loc[i + 1], int):
             parts.append(label(raw, str(part), loc[i + 1]))
             i += 2
             continue
@@ -67,6 +70,10 @@ def where_of(raw: dict[str, Any], loc: tuple[Any, ...]) -> str:
 
 
 def _section_of(loc: tuple[Any, ...]) -> str:
+    if len(loc) >= 5 and loc[0] == "variants" and loc[2] == "changes" and isinstance(loc[3], int):
+        return "changes"
+    if len(loc) == 3 and loc[0] == "changes" and isinstance(loc[1], int):
+        return "changes"
     if len(loc) >= 3 and loc[0] in FIELDS and isinstance(loc[1], int):
         return str(loc[0])
     return "scenario"

@@ -194,6 +194,56 @@ class Correlation(_Strict):
     rho: Fraction
 
 
+#: The numbers a variant's change may address, by what it names (the same product/resource + field
+#: addressing as ``uncertainty``; ``option`` and ``plant`` besides).
+CHANGE_FIELDS: dict[str, tuple[str, ...]] = {
+    "product": ("price_intercept", "price_slope", "unit_cost", "fixed_cost", "max_volume", "min_volume", "min_run"),
+    "resource": ("capacity",),
+    "option": ("taken",),
+    "plant": ("plant_fixed_cost",),
+}
+
+
+class Change(_Strict):
+    """One change of a variant: one number of a product, a resource, an option or the plant.
+
+    Exactly one target: ``product`` (field price_intercept, price_slope, unit_cost, fixed_cost,
+    max_volume, min_volume or min_run), ``resource`` (field capacity), ``option`` (field taken: the
+    share of the option taken, 0 to 1, an all-or-nothing option 0 or 1; its amounts times the share
+    are added to the capacities and its cost times the share to the plant-wide fixed cost) or
+    ``plant: true`` (field plant_fixed_cost).  Exactly one of ``set`` (the new value), ``add`` (added
+    to the value, in its unit; negative lowers it) or ``scale`` (the value times this factor).
+    """
+
+    product: Name | None = None
+    """Product whose number changes (a name under products)."""
+    resource: Name | None = None
+    """Resource whose capacity changes (a name under resources)."""
+    option: Name | None = None
+    """Capacity option taken (a name under options): field taken."""
+    plant: bool | None = None
+    """true for the plant-wide number (field plant_fixed_cost)."""
+    field: Literal["price_intercept", "price_slope", "unit_cost", "fixed_cost", "max_volume", "min_volume",
+                   "min_run", "capacity", "taken", "plant_fixed_cost"]
+    """Which number changes (in the unit of that number)."""
+    set: Number | None = None
+    """The new value (in the number's own unit)."""
+    add: Number | None = None
+    """Amount added to the value (in its unit; negative lowers it)."""
+    scale: NonNegative | None = None
+    """Factor the value is multiplied by (0.95: 5 % less)."""
+
+
+class Variant(_Strict):
+    """A named what-if: the scenario with a few numbers changed (planned beside it by ``planner compare``)."""
+
+    name: Name
+    """Unique name of the variant, shown in the comparison."""
+    description: str = ""
+    changes: list[Change] = Field(min_length=1)
+    """The changes, applied in order to the scenario as written."""
+
+
 class Scenario(_Strict):
     """A whole planning scenario for one period."""
 
@@ -208,6 +258,7 @@ class Scenario(_Strict):
     options: list[Option] = Field(default_factory=list)
     uncertainty: list[Uncertainty] = Field(default_factory=list)
     correlations: list[Correlation] = Field(default_factory=list)
+    variants: list[Variant] = Field(default_factory=list)
 
     def product(self, name: str) -> Product:
         """The product called ``name`` (KeyError if none)."""
@@ -221,4 +272,11 @@ class Scenario(_Strict):
         for r in self.resources:
             if r.name == name:
                 return r
+        raise KeyError(name)
+
+    def variant(self, name: str) -> Variant:
+        """The variant called ``name`` (KeyError if none)."""
+        for v in self.variants:
+            if v.name == name:
+                return v
         raise KeyError(name)

@@ -23,13 +23,14 @@ from planner.scenario.numbers import Unusable
 from planner.scenario.rawdict import clean_name, indexed, number
 from planner.scenario.schema import Scenario
 from planner.scenario.uncertain import uncertainty_problems
+from planner.scenario.variants import result_problems, variant_problems
 
 #: Largest number of products, resources and options a scenario may hold.
 MAX_PRODUCTS = 100_000
 MAX_RESOURCES = 10_000
 MAX_OPTIONS = 10_000
 
-_NAMED = ("products", "resources", "options")
+_NAMED = ("products", "resources", "options", "variants")
 
 
 def _name_problems(raw: dict[str, Any]) -> list[Problem]:
@@ -63,7 +64,7 @@ def _name_problems(raw: dict[str, Any]) -> list[Problem]:
 
 #: Text checked by the name rule (planner.scenario.names), per section; descriptions may hold line breaks.
 _STRICT = {"scenario": ("name", "currency", "period"), "products": ("name", "unit"), "resources": ("name", "unit"),
-           "options": ("name",), "uncertainty": ("product", "resource")}
+           "options": ("name",), "uncertainty": ("product", "resource"), "variants": ("name",)}
 _KEYED = {"products": ("usage",), "options": ("adds", "adds_up_to")}
 
 
@@ -80,7 +81,7 @@ def _character_problems(raw: dict[str, Any]) -> list[Problem]:
     for key in _STRICT["scenario"]:
         check(key, raw.get(key))
     check("description", raw.get("description"), line_breaks=True)
-    for section in ("products", "resources", "options", "uncertainty", "correlations"):
+    for section in ("products", "resources", "options", "uncertainty", "correlations", "variants"):
         for i, e in indexed(raw, section):
             at = label(raw, section, i) if section in _NAMED else f"{section}[{i + 1}]"
             for key in _STRICT.get(section, ()):
@@ -185,7 +186,7 @@ def _cross_problems(raw: dict[str, Any]) -> list[Problem]:
                     if clean_name(res) is not None and res.strip() not in resources:
                         hint = did_you_mean(str(res), resources) or "name a resource defined under resources"
                         problems.append(Problem(f"{at}.{key}.{res}", "names a resource that is not defined", hint))
-    problems += uncertainty_problems(raw)
+    problems += uncertainty_problems(raw) + variant_problems(raw)
     return problems
 
 
@@ -258,6 +259,8 @@ def validate_scenario(raw: Any, source: str = "",
     except ValidationError as err:
         problems = _unusable_problems(raw) + problems + pydantic_problems(raw, err)
     problems += _character_problems(raw) + _cross_problems(raw)
+    if scenario is not None and not problems:  # each variant's result, once the scenario itself is valid
+        problems += result_problems(scenario)
     if locate is not None:
         problems = [Problem(f"{place} ({p.where})" if (place := locate(p.where)) else p.where, p.message, p.fix)
                     for p in problems]

@@ -15,6 +15,9 @@ Tables (one sheet, or one CSV file, each; row 1 is the heading)::
     demand_fit      product, intercept_se, slope_se, covariance, n, r2, price_min, price_max, source
     uncertainty     product, resource, field, distribution, sd, mean, low, mode, high
     correlations    product_1, product_2, rho
+    variants        name, description
+    variant_changes variant, product, resource, option, plant, field, set, add, scale   (one row per change,
+                    in order)
 
 Any other column becomes a key of its entry, and any other table a list
 section of its own, so nothing is dropped (the validator then names what it
@@ -50,11 +53,14 @@ COLUMNS = {
                    "source"],
     "uncertainty": ["product", "resource", "field", "distribution", "sd", "mean", "low", "mode", "high"],
     "correlations": ["product_1", "product_2", "rho"],
+    "variants": ["name", "description"],
+    "variant_changes": ["variant", "product", "resource", "option", "plant", "field", "set", "add", "scale"],
 }
 ORDER = ["scenario", "products", "usage", "resources", "options", "option_amounts", "demand", "demand_fit",
-         "uncertainty", "correlations"]
+         "uncertainty", "correlations", "variants", "variant_changes"]
 TEXT = {"key", "name", "product", "resource", "option", "unit", "description", "kind", "currency", "period",
-        "field", "distribution", "history", "history_product", "regress", "source", "product_1", "product_2"}
+        "field", "distribution", "history", "history_product", "regress", "source", "product_1", "product_2",
+        "variant"}
 POINT_COLS = ["price_1", "volume_1", "price_2", "volume_2"]
 _INT = re.compile(r"[-+]?(?:0|[1-9][0-9]*)")
 
@@ -201,9 +207,24 @@ def to_tables(raw: dict[str, Any], wide_usage: bool = False) -> dict[str, tuple[
         cor = [{"product_1": (c.get("products") or [None, None])[0], "product_2": (c.get("products") or [None, None])[1],
                 **{k: v for k, v in c.items() if k != "products"}} for c in sections.pop("correlations")]
         out["correlations"] = _rows(cor, _columns(cor, COLUMNS["correlations"]))
+    if "variants" in sections:
+        out.update(_variant_tables(sections.pop("variants")))
     for name, entries in sections.items():  # uncertainty and any list section the schema may gain
         out[name] = _rows(entries, _columns(entries, COLUMNS.get(name, [])))
     return out
+
+
+def _variant_tables(variants: list[dict]) -> dict[str, tuple[list[str], list[list[Any]]]]:
+    """Variants as two tables (variants; their changes one row each), or one with ``changes:json`` where rows
+    could not say exactly which variant a change is of (no changes, names that repeat)."""
+    names = [v.get("name").strip() if isinstance(v.get("name"), str) else None for v in variants]
+    if not (all(isinstance(v.get("changes"), list) and v["changes"] and all(isinstance(c, dict) and "variant" not in c
+                                                                           for c in v["changes"]) for v in variants)
+            and None not in names and len(set(names)) == len(names)):
+        return {"variants": _rows(variants, _columns(variants, COLUMNS["variants"]))}
+    rows = [{"variant": v["name"], **c} for v in variants for c in v["changes"]]
+    return {"variants": _rows(variants, _columns(variants, COLUMNS["variants"], {"changes"})),
+            "variant_changes": _rows(rows, _columns(rows, COLUMNS["variant_changes"]))}
 
 
 # ---------------------------------------------------------------- tables -> dict
@@ -366,8 +387,9 @@ def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_n
         key = name.strip() if isinstance(name, str) else name
         if key in names:
             return names[key]
-        hint = did_you_mean(str(name), list(names)) or f"add it to {place('products' if col != 'option' else 'options')} or fix the name"
-        what = "an option" if col == "option" else "a product"
+        section = {"option": "options", "variant": "variants"}.get(col, "products")
+        hint = did_you_mean(str(name), list(names)) or f"add it to {place(section)} or fix the name"
+        what = {"option": "an option", "variant": "a variant"}.get(col, "a product")
         rd.problems.append(Problem(rd.at(table, r, col), f"names {what} that is not defined: {name!r}", hint))
         return None
 
@@ -454,6 +476,22 @@ def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_n
             cors.append(c)
         raw["correlations"] = cors
         rd.where["correlations"] = rd.at("correlations")
+    if "variants" in tables:
+        raw["variants"] = rd.entries(tables["variants"], "variants", "name", ["name"])
+        vnames = {v["name"].strip(): (i, v) for i, v in enumerate(raw["variants"]) if isinstance(v.get("name"), str)}
+        for r, rec in rd.records(tables["variant_changes"], ["variant", "field"]) if "variant_changes" in tables else []:
+            name = rec.pop("variant", None)
+            hit = owner("variant_changes", r, "variant", name, vnames) if name is not None else \
+                rd.problems.append(Problem(rd.at("variant_changes", r, "variant"), "is empty", "name the variant"))
+            if hit is not None:
+                changes = hit[1].setdefault("changes", [])
+                label = f"variants[{hit[1]['name'].strip()}].changes[{len(changes) + 1}]"
+                rd.where.setdefault(label, rd.at("variant_changes", r))
+                rd.where.update({f"{label}.{c}": rd.at("variant_changes", r, c) for c in rec})
+                changes.append(rec)
+    elif "variant_changes" in tables:
+        rd.problems.append(Problem(place("variants"), "is missing but variant_changes is given",
+                                   "add the variants table (name, description)"))
     for name, t in tables.items():
         if name not in ORDER or name == "uncertainty":
             raw[name] = rd.entries(t, name, "name", [])

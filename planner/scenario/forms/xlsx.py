@@ -16,6 +16,7 @@ from typing import Any
 from planner.errors import Problem, ScenarioError
 from planner.files import set_cell, write_atomic
 from planner.scenario.numbers import Formula
+from planner.scenario.schema import CHANGE_FIELDS
 from planner.scenario.forms.tables import COLUMNS, ORDER, ReadResult, Table, from_tables, to_tables
 
 IGNORED_SHEETS = {"about"}
@@ -47,9 +48,11 @@ NOTES = {
     ("correlations", "product_1"): "First product.",
     ("correlations", "product_2"): "Second product.",
     ("correlations", "rho"): "Correlation of their demand, -1 to 1.",
+    ("variant_changes", "variant"): "Variant name, as in sheet variants; one row per change, applied in order.",
 }
 _CLASSES = {"scenario": "Scenario", "products": "Product", "resources": "Resource", "options": "Option",
-            "demand_fit": "DemandFit", "uncertainty": "Uncertainty"}
+            "demand_fit": "DemandFit", "uncertainty": "Uncertainty", "variants": "Variant",
+            "variant_changes": "Change"}
 
 ABOUT = [
     "Scenario workbook for planner. Fill in the sheets, then: planner plan THIS.xlsx",
@@ -62,6 +65,8 @@ ABOUT = [
     "  or a sales-history CSV to fit (see: planner fit-demand HISTORY.csv).",
     "usage: long (product, resource, amount) or wide (product, then one column per resource).",
     "options: ways to buy capacity; their amounts in option_amounts.",
+    "variants: named what-ifs (planner compare); each change is a row of variant_changes: a product, resource,",
+    "  option or plant (true), a field, and one of set, add or scale.",
     "Sheets you do not need may stay empty or be deleted (products is required).",
     "Labour rules on shifts and overtime differ by jurisdiction; local law and company agreements govern.",
 ]
@@ -223,7 +228,9 @@ def write_template(path: str | Path) -> Path:
                   ("resources", "kind"): ["work_centre", "material", "other"],
                   ("demand", "regress"): ["volume-on-price", "price-on-volume"],
                   ("uncertainty", "field"): ["price_intercept", "price_slope", "unit_cost", "capacity"],
-                  ("uncertainty", "distribution"): ["normal", "triangular", "uniform", "fitted"]})
+                  ("uncertainty", "distribution"): ["normal", "triangular", "uniform", "fitted"],
+                  ("variant_changes", "plant"): ["TRUE"],
+                  ("variant_changes", "field"): [f for fields in CHANGE_FIELDS.values() for f in fields]})
     return _save(wb, Path(path))
 
 
