@@ -16,6 +16,7 @@ import numpy as np
 from models.data import MixData
 from models.economics import capacity_value, standalone
 from planner.engine import DEFAULT_GAP, Engine, Solution, relative_gap
+from planner.engine.highs import has_ipm
 from planner.engine.infeasible import explain as explain_infeasible
 from planner.engine.settings import LIMIT_TOL, MAX_GAP
 from planner.engine.verify import check_plan
@@ -30,7 +31,8 @@ from planner.scenario.schema import Scenario
 
 def engine_for(s: Scenario, d: MixData | None = None, threads: int = 1, seed: int = 0) -> Engine:
     """The engine of a validated scenario (its arrays ``d`` if already made), with its units for messages."""
-    return Engine(mix_data(s) if d is None else d, threads, seed, units={r.name: r.unit for r in s.resources})
+    return Engine(mix_data(s) if d is None else d, threads, seed, units={r.name: r.unit for r in s.resources},
+                  offset=s.plant_fixed_cost)
 
 
 def check_gap(rel_gap: float) -> None:
@@ -66,7 +68,16 @@ def plan(scenario: Scenario | str | Path, rel_gap: float = DEFAULT_GAP, time_lim
         raise SolverError(f"the plan could not be certified to the gap asked for ({'; '.join(sol.messages)}); "
                           f"the best plan found makes {sol.objective:,.2f} against a bound of {sol.bound:,.2f} "
                           f"(gap {sol.gap:.2e}): try a larger --gap, a --time-limit, or --solver scip")
-    return build_plan(scenario, d, sol, warnings, threads, seed)
+    out = build_plan(scenario, d, sol, warnings, threads, seed)
+    if d.n >= IPM_ADVICE_FROM and not has_ipm():
+        out.warnings.append("HiGHS's interior-point QP (highspy-extras) is not installed: large plans are solved by "
+                            "its active-set QP, which slows sharply with thousands of products inside their bounds "
+                            "(pip install 'planner[ipm]', which pins highspy 1.15.1 beside it)")
+    return out
+
+
+#: Products from which a plan without HiGHS's interior-point QP carries a warning.
+IPM_ADVICE_FROM = 1000
 
 
 def build_plan(s: Scenario, d: MixData, sol: Solution, warnings: list[str] | None = None,
@@ -86,7 +97,8 @@ def build_plan(s: Scenario, d: MixData, sol: Solution, warnings: list[str] | Non
         products.append(ProductPlan(
             name=p.name, running=running, volume=D, price=price, revenue=revenue, variable_cost=var_cost,
             contribution=revenue - var_cost, fixed_cost=fixed, profit=revenue - var_cost - fixed,
-            unit=p.unit, standalone=econ[k], must_run=bool(d.must_run[k])))
+            unit=p.unit, standalone=econ[k], must_run=bool(d.must_run[k]),
+            forced="must_run" if p.must_run else ("min_volume" if p.min_volume > 0 else "")))
     used = d.used(vol)
     value = capacity_value(sol.duals, d.capacity)
     resources = []

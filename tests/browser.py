@@ -98,9 +98,11 @@ class _Pipe:
         return json.loads(raw)
 
 
-def open_page(path: Path, queries: dict[str, str], width: int = 1280, height: int = 900,
-              binary: str | None = None, timeout: float = 60.0) -> PageResult:
-    """Load ``path`` in headless Chromium; evaluate each JS expression in ``queries`` after load."""
+def open_page(path: Path | str, queries: dict[str, str], width: int = 1280, height: int = 900,
+              binary: str | None = None, timeout: float = 60.0, allowed: tuple[str, ...] = ()) -> PageResult:
+    """Load ``path`` (a file, or an ``http://`` URL) in headless Chromium; evaluate each JS expression in
+    ``queries`` after load (a promise is awaited).  Requests to URLs starting with one of ``allowed``
+    (a local server's own address) are not counted as leaving the page."""
     binary = binary or find_chromium()
     if binary is None:
         raise FileNotFoundError("no Chromium binary found")
@@ -129,10 +131,12 @@ def open_page(path: Path, queries: dict[str, str], width: int = 1280, height: in
             pipe.send(method, session=session)
         pipe.send("Emulation.setDeviceMetricsOverride",
                   {"width": width, "height": height, "deviceScaleFactor": 1, "mobile": False}, session=session)
-        pipe.send("Page.navigate", {"url": path.resolve().as_uri()}, session=session)
+        url = path if isinstance(path, str) else path.resolve().as_uri()
+        pipe.send("Page.navigate", {"url": url}, session=session)
         pipe.wait_event("Page.loadEventFired", timeout=timeout)
         for name, expr in queries.items():
-            r = pipe.send("Runtime.evaluate", {"expression": expr, "returnByValue": True}, session=session)
+            r = pipe.send("Runtime.evaluate", {"expression": expr, "returnByValue": True, "awaitPromise": True},
+                          session=session, timeout=timeout)
             if "exceptionDetails" in r:
                 raise RuntimeError(f"query {name!r} failed: {r['exceptionDetails'].get('text')}")
             result.values[name] = r["result"].get("value")
@@ -155,7 +159,7 @@ def open_page(path: Path, queries: dict[str, str], width: int = 1280, height: in
                 result.console_errors.append(params["entry"].get("text", ""))
             elif method == "Network.requestWillBeSent":
                 url = params.get("request", {}).get("url", "")
-                if not url.startswith(("file:", "data:", "about:")):
+                if not url.startswith(("file:", "data:", "about:") + tuple(allowed)):
                     result.outside_requests.append(url)
         try:
             pipe.send("Browser.close", timeout=5)

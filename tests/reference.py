@@ -1,30 +1,48 @@
 """Outside references for the planner's answers, built from the raw scenario numbers.
 
+Nothing here imports the planner or models/: every reference reads the
+scenario's own fields (``products[i].price_intercept`` ...) and writes its
+model straight into another solver, so a formulation error in models/ or a
+fault in planner/engine cannot hide on both sides.
+
 - ``scip_plan``: the mixed-integer QP written straight into SCIP through
-  pyscipopt (not through the project's Pyomo model), so a formulation error
-  in models/ cannot hide in both sides.
-- ``enumerate_slates``: every on/off slate of the products with a real
-  choice, each solved as a continuous QP; exact for up to about a dozen.
+  pyscipopt.
+- ``enumerate_plans`` / ``enumerate_slates`` (in tests/enumeration.py, offered
+  here too): every on/off slate of the products with a real choice, each slate's continuous QP passed to highspy
+  directly as arrays (Hessian diag(2b), HiGHS's ½·xᵀQx convention), with a
+  power-of-two scaling of its own.  Each slate's answer is certified in numpy:
+  the profit is recomputed from the volumes (checked against every limit), and
+  the Lagrangian dual function at the row duals (HiGHS's, polished, or found by
+  a direct search), evaluated in closed form per product, gives an upper bound
+  on that slate.  The best slate's profit is
+  thus a feasible plan's profit and the largest slate bound a valid upper bound
+  on the optimum, whatever HiGHS did.  Exact for up to about a dozen choices.
+
+The economics (README, "scenario file"): price p = a − b·D; contribution
+(a − v)·D − b·D²; a product that must run (``must_run``, or ``min_volume`` > 0)
+makes at least max(min_volume, min_run) and always pays its fixed cost; a
+product with a fixed cost or a minimum run may instead be shut down (volume 0,
+no fixed cost), and makes at least min_run when it runs; any other product makes
+0..cap freely.  Σ_i usage_ri·D_i ≤ capacity_r for every resource.
 """
 
 from __future__ import annotations
 
-import itertools
+from typing import TYPE_CHECKING
 
-import numpy as np
+if TYPE_CHECKING:  # type only: the references never call into the planner
+    from planner.scenario.schema import Scenario
 
-from planner.scenario.schema import Scenario
 
-
-def scip_plan(s: Scenario, gap: float = 1e-9, time_limit: float = 60.0) -> tuple[float, dict[str, float]]:
+def scip_plan(s: "Scenario", gap: float = 1e-9, time_limit: float = 60.0) -> tuple[float, dict[str, float]]:
     """(optimal profit before plant-wide fixed cost, volumes) from SCIP."""
     m, D, _ = _scip_model(s, gap, time_limit)
     m.optimize()
-    assert m.getStatus() == "optimal", m.getStatus()
+    assert m.getStatus() in ("optimal", "gaplimit"), m.getStatus()  # gaplimit: solved to the gap asked for
     return m.getObjVal(), {k: m.getVal(v) for k, v in D.items()}
 
 
-def scip_race(s: Scenario, gap: float, time_limit: float) -> dict:
+def scip_race(s: "Scenario", gap: float, time_limit: float) -> dict:
     """SCIP to a relative gap within a time limit: seconds, whether it got there, its profit and bound.
 
     The gap is measured as the planner measures it, (bound − profit) / max(|profit|, 1).
@@ -42,7 +60,29 @@ def scip_race(s: Scenario, gap: float, time_limit: float) -> dict:
             "status": m.getStatus()}
 
 
-def _scip_model(s: Scenario, gap: float, time_limit: float, with_options: bool = False):
+def _scip_upper(s: "Scenario", p) -> float:
+    """A volume bound that loses no optimal plan, as tight as the raw numbers give (units).
+
+    It is also the big-M of the on/off link D ≤ M·y, so it must be tight: with the
+    old M = 1e7 and SCIP's integrality tolerance (1e-6 on y), a stopped product could
+    still make ~10 units without paying its fixed cost (found by the differential
+    test, seed 324: SCIP's 40,272.34 was no plan; the true optimum is 40,179.57).
+    min(max_volume, (capacity_r + every option's amount for r) / usage_r, and for a sloped
+    product max(min_volume, min_run, (a − v)/(2b))); 1e7 if none applies.
+    """
+    bounds = [p.max_volume] if p.max_volume is not None else []
+    caps = {r.name: r.capacity for r in s.resources}
+    for o in s.options:  # capacity options can add to a resource: count them all in full
+        for res, amt in (o.adds or o.adds_up_to or {}).items():
+            caps[res] += amt
+    bounds += [caps[res] / amt for res, amt in p.usage.items() if amt > 0]
+    if p.price_slope > 0:
+        peak = (p.price_intercept - p.unit_cost) / (2 * p.price_slope)
+        bounds.append(max(p.min_volume, p.min_run, peak, 0.0))
+    return min(bounds) if bounds else 1e7
+
+
+def _scip_model(s: "Scenario", gap: float, time_limit: float, with_options: bool = False):
     """The mixed-integer QP in SCIP, built from the raw scenario numbers: (model, volumes, option scales).
 
     With ``with_options`` each capacity option gets a scale z ∈ [0, 1] (binary for
@@ -57,7 +97,7 @@ def _scip_model(s: Scenario, gap: float, time_limit: float, with_options: bool =
     m.setParam("randomization/randomseedshift", 0)
     D, y, t, z = {}, {}, {}, {}
     for p in s.products:
-        cap = p.max_volume if p.max_volume is not None else 1e7
+        cap = _scip_upper(s, p)
         lo = max(p.min_volume, p.min_run) if (p.must_run or p.min_volume > 0) else 0.0
         D[p.name] = m.addVar(f"D_{p.name}", lb=0.0, ub=cap)
         choice = (p.fixed_cost > 0 or p.min_run > 0) and not p.must_run and p.min_volume == 0
@@ -86,27 +126,6 @@ def _scip_model(s: Scenario, gap: float, time_limit: float, with_options: bool =
     m.setObjective(quicksum(t.values()) - quicksum(p.fixed_cost * y[p.name] for p in s.products if p.name in y)
                    - fixed_always - quicksum(cost_terms), sense="maximize")
     return m, D, z
-
-
-def enumerate_slates(s: Scenario) -> float:
-    """Best profit (before plant-wide fixed cost) over every slate, each a continuous QP."""
-    from models.data import MixData  # noqa: F401  (documentation of what is enumerated)
-    from planner.scenario.arrays import mix_data
-    from planner.engine import Engine
-
-    d = mix_data(s)
-    free = np.flatnonzero(d.can_stop)
-    assert free.size <= 12, "enumeration is for small cases only"
-    best = -np.inf
-    for bits in itertools.product([False, True], repeat=free.size):
-        slate = np.ones(d.n, dtype=bool)
-        slate[free] = bits
-        if np.any(slate & (d.run_floor > d.upper + 1e-12)):
-            continue  # a product that cannot reach its minimum run
-        qp = Engine(d).slate(slate)
-        if qp.status == "optimal":
-            best = max(best, qp.objective)
-    return best
 
 
 def qp_relaxation(s: Scenario, solver: str = "choose") -> dict:
@@ -165,3 +184,8 @@ def qp_relaxation(s: Scenario, solver: str = "choose") -> dict:
     value = -h.getInfo().objective_function_value
     return {"build_seconds": t1 - t0, "solve_seconds": t2 - t1, "seconds": t2 - t0,
             "status": h.modelStatusToString(h.getModelStatus()), "value": value}
+
+
+# The slate enumeration lives in tests/enumeration.py; its names are offered here too.
+from .enumeration import (REF_LIMIT_TOL, Enumeration, Numbers, SlateAnswer, dual_value,  # noqa: E402,F401
+                          enumerate_plans, enumerate_slates, floors_fit, scenario_numbers, slate_qp)

@@ -100,7 +100,8 @@ EXPECTED: dict[str, list[str]] = {
         "products[bracket].price_slope: must be a plain number, not a percentage (got '1%') (write 1% as 0.01)",
     ],
     '27_decimal_comma.yaml': [
-        "products[bracket].usage.5: '5' has no amount: a decimal comma splits the number inside { } (write decimals with a point, e.g. 0.5)",
+        "line 7, column 19 (products[bracket].usage.mill): 0,5 is split at its comma: inside { } a comma separates "
+        "entries, so YAML reads 0 here and 5 as a key of its own (write 0.5, with a decimal point)",
     ],
     '28_huge_number.yaml': [
         'resources[mill].capacity: is too large (more than 1e+15) (got 1e+300) (use a larger unit, such as thousands or tonnes, so amounts stay within 1e15)',
@@ -207,6 +208,101 @@ EXPECTED: dict[str, list[str]] = {
     ],
     '59_unit_in_number_none_stated.yaml': [
         "resources[mill].capacity: must be a plain number (got '4160 hours') (write 4160 and state the unit once as unit: hours under resources[mill])",
+    ],
+    '60_octal_leading_zero.yaml': [
+        'line 10, column 15 (resources[mill].capacity): must be a plain decimal number: 0400 has a leading zero, which YAML reads as the octal number 256 (write 400)',
+    ],
+    '61_base_60.yaml': [
+        'line 10, column 15 (resources[mill].capacity): must be a plain decimal number: 6:40 is written in base 60, like a time, which YAML reads as 400 (write 6.6667 if it means hours and minutes, or 400 if minutes)',
+    ],
+    '62_hex_binary_underscores.yaml': [
+        'line 4, column 22 (products[bracket].price_intercept): must be a plain decimal number: 0x32 is written in hexadecimal (50 in decimal) (write 50)',
+        'line 6, column 16 (products[bracket].unit_cost): must be a plain decimal number: 0b10100 is written in binary (20 in decimal) (write 20)',
+        "line 10, column 15 (resources[mill].capacity): must be a plain decimal number: 4_160 has '_' between its digits, which YAML reads as 4160 (write 4160)",
+    ],
+    '63_odd_number_as_text.yaml': [
+        "products[bracket].price_intercept: must be a plain decimal number: '0o62' is written in octal (50 in decimal) (write 50)",
+        "products[bracket].unit_cost: must be a plain decimal number: '020' has a leading zero (write 20)",
+        "resources[mill].capacity: must be a plain decimal number: '1_000' has '_' between its digits (write 1000)",
+    ],
+    '64_comma_in_flow_mapping.yaml': [
+        'line 6, column 28 (resources[mill].capacity): 4,160 is split at its comma: inside { } a comma separates entries, so YAML reads 4 here and 160 as a key of its own (write 4160, without the comma)',
+    ],
+    '65_number_where_text_belongs.yaml': [
+        "line 1, column 7 (name): must be text, but YAML reads 0400 as the number 256 (quote it: '0400')",
+        "line 3, column 11 (products[1].name): must be text, but YAML reads 6:40 as the number 400 (quote it: '6:40')",
+        "line 7, column 13 (products[1].usage.0x10): names must be text, but YAML reads 0x10 as the number 16 (quote it: '0x10')",
+    ],
+    '66_control_character_in_name.yaml': [
+        'name: contains a control character U+001B at position 10 (remove it)',
+        'products[1].name: contains a control character U+001B at position 8 (remove it)',
+        'resources[mill].unit: contains a control character U+007F at position 2 (remove it)',
+    ],
+    '67_invisible_characters.yaml': [
+        'currency: contains a bidirectional control character U+202E at position 1 (remove it)',
+        'period: contains a bidirectional control character U+2066 at position 8 (remove it)',
+        'products[1].name: contains an invisible character U+200B at position 5 (remove it)',
+        'products[1].unit: contains an invisible character U+00AD at position 4 (remove it)',
+        "products[1].usage.'mi\\ufeffll': contains an invisible character U+FEFF at position 3 (remove it)",
+        'options[1].name: contains an invisible character U+2060 at position 9 (remove it)',
+    ],
+    '68_names_differ_only_in_case.yaml': [
+        'products[bracket]: differs from products[Bracket] only in case (names must differ by more than case, spacing or how accents are encoded: rename one)',
+        'products[BRACKET]: differs from products[Bracket] only in case (names must differ by more than case, spacing or how accents are encoded: rename one)',
+        'resources[mill]: name used 2 times (names must be unique)',
+        'resources[Big mill]: differs from resources[big  mill] only in spacing and case (names must differ by more than case, spacing or how accents are encoded: rename one)',
+    ],
+    '69_names_differ_in_unicode_form.yaml': [
+        'products[2]: differs from products[1] (café table) only in Unicode form (names must differ by more than case, spacing or how accents are encoded: rename one)',
+    ],
+    '70_correlations_cannot_hold.yaml': [
+        'correlations: the correlations oak–ash 0.9, ash–elm 0.9, oak–elm -0.9 cannot hold together (the correlation matrix is not positive semi-definite) (weaken some of them: for example, if A goes with B and B with C, A cannot go strongly against C)',
+    ],
+    '71_number_rule_in_every_field.yaml': [
+        'line 2, column 19 (plant_fixed_cost): must be a plain decimal number: 0100 has a leading zero, which YAML reads as the octal number 64 (write 100)',
+        'line 19, column 24 (options[overtime].adds_up_to.mill): must be a plain decimal number: 0300 has a leading zero, which YAML reads as the octal number 192 (write 300)',
+        'line 20, column 20 (options[overtime].cost_per_unit): must be a plain decimal number: 1:30 is written in base 60, like a time, which YAML reads as 90 (write 1.5 if it means hours and minutes, or 90 if minutes)',
+        "line 5, column 24 (products[bracket].demand.points): point 1's price must be a plain decimal number: 050 has a leading zero, which YAML reads as the octal number 40 (write 50)",
+        "line 10, column 31 (products[shelf].demand.reference_price): must be a plain decimal number: 1_000 has '_' between its digits, which YAML reads as 1000 (write 1000)",
+        "products[shelf].demand.elasticity: must be a plain decimal number: '-0x2' is written in hexadecimal (-2 in decimal) (write -2)",
+        'products[bracket].demand_fit.n: must be a number, not true/false (got True) (write the amount in digits)',
+        "uncertainty[1].low: must be a plain decimal number: '018' has a leading zero (write 18)",
+        "uncertainty[1].high: must be a plain decimal number: '2_2' has '_' between its digits (write 22)",
+        'uncertainty[2].sd: must be a finite number (got inf) (write an ordinary number)',
+        'correlations[1].rho: must be a number, not true/false (got True) (write the amount in digits)',
+    ],
+    '72_option_adds_nothing.yaml': [
+        'options[Saturday shift].adds: names no resource (give the amount it adds to at least one resource, or remove the option)',
+    ],
+    '73_raw_control_character.yaml': [
+        'line 3, column 19: contains a control character U+001B (remove it: a scenario file holds printable text only)',
+    ],
+    '74_impossible_date.yaml': [
+        "line 3, column 9: is not valid YAML: '2026-02-30' cannot be read as a date (quote it if it is text, or write it in plain form)",
+    ],
+    '75_unreadable_yaml_number.yaml': [
+        'line 6, column 16 (products[bracket].unit_cost): must be a plain decimal number: twenty is not a number YAML can read (write the amount in digits, e.g. 1200 or 0.75)',
+        'line 10, column 15 (resources[mill].capacity): must be a plain decimal number: 0x_ is not a number YAML can read (write the amount in digits, e.g. 1200 or 0.75)',
+    ],
+    '76_variant_mistakes.yaml': [
+        "variants[more mill].changes[5].sett: unknown key (did you mean 'set'?)",
+        'variants[More mill]: differs from variants[more mill] only in case (names must differ by more than case, spacing or how accents are encoded: rename one)',
+        "variants[more mill].changes[1].resource: names a resource that is not defined ('mil') (did you mean 'mill'?)",
+        "variants[more mill].changes[2].field: capacity is not a field of a product (a product's field is price_intercept, price_slope, unit_cost, fixed_cost, max_volume, min_volume or min_run)",
+        "variants[more mill].changes[3]: needs exactly one of 'product', 'resource', 'option' or 'plant: true' (gives 'product' and 'resource') (field unit_cost goes with 'product')",
+        "variants[more mill].changes[4]: needs exactly one of 'product', 'resource', 'option' or 'plant: true' (names no target) (field plant_fixed_cost goes with 'plant: true')",
+        "variants[more mill].changes[5]: needs exactly one of 'set', 'add' or 'scale' (gives none) (set: the new value; add: an amount added to it; scale: a factor it is multiplied by)",
+        "variants[more mill].changes[6]: needs exactly one of 'set', 'add' or 'scale' (gives add and scale) (set: the new value; add: an amount added to it; scale: a factor it is multiplied by)",
+        "variants[More mill].changes[1].option: names an option that is not defined ('overtme') (did you mean 'overtime'?)",
+    ],
+    '77_variant_breaks_the_schema.yaml': [
+        'variants[cheaper].changes[1]: makes products[bracket].unit_cost -5, but it must be >= 0 (change it so the result is 0 or more)',
+        'variants[cheaper].changes[2]: products[shelf] has no max_volume to scale (give it one with set: the cap in units per quarter)',
+        'variants[half shifts].changes[1]: makes the share of options[Saturday shift] taken 0.5, but it is all or nothing: 0 or 1 (set: 1 to take it, set: 0 to leave it)',
+        'variants[half shifts].changes[2]: makes the share of options[overtime] taken 1.5, but it must be from 0 to 1 (set: 1 takes all of it, set: 0.5 half)',
+        'variants[half shifts].changes[3]: makes plant_fixed_cost -50, but it must be >= 0 (change it so the result is 0 or more)',
+        'variants[big commitment].changes[1]: makes products[bracket] commit 1000 above its max_volume 900 (lower the commitment or raise the cap)',
+        'variants[big commitment].changes[2]: makes resources[mill].capacity 4.16e+15, but it is too large (more than 1e+15) (use a larger unit, such as thousands or tonnes, so amounts stay within 1e15)',
     ],
 }
 

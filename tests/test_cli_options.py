@@ -37,12 +37,19 @@ OPTIONS = [
     (["risk", DEMO], "--gap", "a number from 0 to 0.1", "0<=x<=0.1"),
     (["risk", DEMO], "--workers", "a whole number from 0 to 256", "0<=x<=256"),
     (["fit-demand", HISTORY], "--level", "a number from 0.5 to 0.999", "0.5<=x<=0.999"),
+    (["compare", DEMO], "--gap", "a number from 0 to 0.1", "0<=x<=0.1"),
+    (["compare", DEMO], "--time-limit", "a number above 0 and at most 1,000,000", "0<x<=1,000,000"),
+    (["compare", DEMO], "--workers", "a whole number from 0 to 256", "0<=x<=256"),
+    (["serve", DEMO], "--port", "a whole number from 0 to 65,535", "0<=x<=65,535"),
+    (["serve", DEMO], "--gap", "a number from 0 to 0.1", "0<=x<=0.1"),
+    (["serve", DEMO], "--time-limit", "a number above 0 and at most 1,000,000", "0<x<=1,000,000"),
 ]
 
 #: Values just outside each range (per option): each is refused with the same range in the message.
 OUTSIDE = {"--gap": ["2", "-1e-9", "0.1000001"], "--time-limit": ["0", "-5", "1e7"], "--from": ["-1", "2e15"],
            "--to": ["-0.5", "1e16"], "--steps": ["0", "100001", "2.5"], "--samples": ["0", "1000001"],
-           "--seed": ["-1", "4294967296"], "--workers": ["-1", "257"], "--level": ["0.4", "1"]}
+           "--seed": ["-1", "4294967296"], "--workers": ["-1", "257"], "--level": ["0.4", "1"],
+           "--port": ["-1", "65536"]}
 
 
 def invoke(args):

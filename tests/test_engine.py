@@ -21,7 +21,7 @@ from planner.scenario.arrays import mix_data
 from planner.scenario.synth import synthetic_scenario
 
 from .conftest import needs_scip
-from .reference import enumerate_slates, scip_plan
+from .reference import enumerate_slates, scenario_numbers, scip_plan, slate_qp
 
 
 def _data(n, m, seed, fixed="some", **kw):
@@ -112,6 +112,8 @@ def test_lagrangian_bounds_are_valid():
     engine = Engine(d, scaled=False)
     p = engine.problem(d)
     best = enumerate_slates(s)
+    nums = scenario_numbers(s)
+    assert np.array_equal(nums.choice, d.can_stop)
     rng = np.random.default_rng(0)
     for lam in [np.zeros(3), rng.uniform(0, 50, 3), rng.uniform(0, 500, 3)]:
         assert evaluate(p, lam).value >= best - 1e-9 * abs(best)
@@ -128,9 +130,10 @@ def test_lagrangian_bounds_are_valid():
                 slate = np.ones(d.n, dtype=bool)
                 slate[others] = bits
                 slate[i] = running
-                qp = engine.slate(slate)
-                if qp.status == "optimal":
-                    top = max(top, qp.objective)
+                qp = slate_qp(nums, slate)  # the highspy reference, from the raw numbers
+                if qp is not None:
+                    assert qp.status == "optimal"
+                    top = max(top, qp.profit)
             assert bnd >= top - 1e-7 * max(abs(top), 1.0)
 
 
@@ -207,3 +210,18 @@ def test_every_highs_instance_is_made_by_the_adapter():
     makers = [str(f.relative_to(root)) for f in root.rglob("*.py")
               if "highspy.Highs()" in f.read_text(encoding="utf-8") and f.name != "highs.py"]
     assert makers == []
+
+
+def test_kkt_polish_corrects_a_misread_active_set():
+    """max 10x − x² + y − y² s.t. x + y ≤ 3, 0 ≤ x, y (by hand: with y > 0, 10 − 2x = 1 − 2y and x + y = 3
+    give y = −0.75, so y = 0, x = 3, λ = 10 − 2·3 = 4, and y's reduced profit 1 − 4 < 0 keeps it at 0).
+    A guess slightly inside (as an interior-point answer is) reads y as free; the polish corrects it."""
+    from planner.engine.kkt import polish
+
+    c, b = np.array([10.0, 1.0]), np.array([1.0, 1.0])
+    H, cap = np.array([[1.0, 1.0]]), np.array([3.0])
+    lo, hi = np.zeros(2), np.full(2, np.inf)
+    got = polish(c, b, H, cap, lo, hi, np.array([2.99, 0.01]), np.array([4.02]))
+    assert got is not None
+    x, lam = got
+    assert x == pytest.approx([3.0, 0.0], abs=1e-12) and lam == pytest.approx([4.0], abs=1e-12)

@@ -44,14 +44,22 @@ def _pyyaml(text: str):
         return None, e
 
 
+def _planner(text: str):
+    """What the planner's own loader reads (PyYAML's safe rules, keeping numbers spelled otherwise than plain decimal)."""
+    from planner.scenario.loading import parse_yaml
+
+    return parse_yaml(text)
+
+
 def _check(text: str) -> bool:
-    """Assert the fast reader agrees with PyYAML on ``text``; True if it took the fast path."""
+    """Assert the fast reader agrees with PyYAML and with the planner's loader on ``text``; True if it took the fast path."""
     fast = fast_read(text)
     if fast is None:
         return False
     ref, err = _pyyaml(text)
     assert err is None, f"fast path read text PyYAML rejects: {text!r} ({err})"
     assert _same(fast, ref), f"{text!r}: fast {fast!r} != PyYAML {ref!r}"
+    assert _same(fast, _planner(text)), f"{text!r}: fast {fast!r} != the planner's loader"
     return True
 
 
@@ -67,12 +75,21 @@ PARTING = [
     "a: .NaN", "a: ~", "a:", "a: =", "a: 1.0e+400", "a: 12345678901234567890123", "- - x\n- y",
     "a:\n  - 1\n - 2", "a:\n- 1\n- 2", "a: [1, 2", "a: {b: 1", "a: b: c", "a: 1\r\nb: 2\r\n", "a: 1\rb: 2",
     'a: 1\n"a": 2', "x:\n  a: 1\n  'a': 2", "k: {a: 1, a: 2}", "k: [1, 2]\nk: [3]",
+    # numbers the planner's loader keeps as written (planner.scenario.numbers): declined, never read as numbers
+    "a: 0400", "a: 0400.5", "a: 6:40", "a: 4_00", "a: 0b11", "a: -0x1F", "k: {b: 4,160}", "k: {b: 0,5, c: 1}",
+    "k: [4,160]", "a: +12", "a: .5", "a: 1.0e+3", "a: -0", "a: 0.", "a: 00", "a: '0400'",
 ]
 
 
 @pytest.mark.parametrize("text", PARTING)
 def test_parting_cases_are_declined_or_agree(text: str) -> None:
     _check(text)
+
+
+def test_numbers_kept_as_written_are_declined() -> None:
+    """The fast path never sees a number the planner's loader would keep as written (it has no such type)."""
+    for text in ("a: 0400", "a: 6:40", "a: 4_00", "a: 0x1F", "a: 0b11", "k: {b: 4,160}", "a: 0400.5", "a: 1_0.5"):
+        assert fast_read(text) is None, text
 
 
 def test_rules_that_differ_are_declined() -> None:
@@ -113,7 +130,8 @@ def test_keys_given_twice_are_still_located(tmp_path: Path) -> None:
 
 
 _FRIENDLY = ["x", "abc def", "a-b", "p00012", "r000", "É t'é", "名前", "a,b", "a (b) c", "50%", "a/b", "it's",
-             "yes", "No", "on", "null", "True", "010", "1e3", "1:30", "2026-01-05", "a#b", "a: b", "", " x"]
+             "yes", "No", "on", "null", "True", "010", "1e3", "1:30", "2026-01-05", "a#b", "a: b", "", " x",
+             "0400", "6:40", "4_00", "0x1F", "0b11", "4,160", "+12", ".5", "1.0e+3", "00", "0."]
 _scalars = st.one_of(st.sampled_from(_FRIENDLY), st.integers(-10**20, 10**20), st.booleans(), st.none(),
                      st.floats(allow_nan=True, allow_infinity=True), st.text(max_size=6))
 _docs = st.recursive(_scalars, lambda inner: st.one_of(
@@ -123,7 +141,8 @@ _docs = st.recursive(_scalars, lambda inner: st.one_of(
 
 @settings(max_examples=400, deadline=None)
 @given(doc=_docs, flow=st.sampled_from([False, None]), edits=st.lists(
-    st.tuples(st.integers(0, 40), st.sampled_from([" ", "", "'", "# c", "  ", "-", ":", "1", "e5", "\t"])),
+    st.tuples(st.integers(0, 40), st.sampled_from([" ", "", "'", "# c", "  ", "-", ":", "1", "e5", "\t", "0", "_0",
+                                                    ",160", ":40"])),
     max_size=3))
 def test_dumped_and_edited_documents_agree(doc, flow, edits) -> None:
     """PyYAML's own output, then lightly edited by hand (indents, quotes, comments), reads the same."""
@@ -140,3 +159,4 @@ def test_dumped_and_edited_documents_agree(doc, flow, edits) -> None:
         else:
             lines[i] = lines[i] + (" " + piece if piece == "# c" else piece)
     _check("\n".join(lines))
+    _check("\n".join(lines).replace("'", ""))  # quoted numbers written plain: 0400, 6:40 ... as YAML types them

@@ -208,6 +208,8 @@ def _identity(path: Path) -> tuple[int, int, int]:
     ["template", "{target}.xlsx"],
     ["report", "{demo}", "--out", "{target}", "--no-options", "-q"],
     ["risk", "{demo}", "--samples", "5", "--workers", "0", "--charts", "{target}", "-q"],
+    ["compare", "{demo}", "--variant", "Saturday shift", "--json", "{target}", "-q"],
+    ["compare", "{demo}", "--variant", "Saturday shift", "--out", "{target}", "-q"],
 ])
 def test_special_files_are_refused_not_replaced(tmp_path, demo_path, command):
     sock, specials = _special_files(tmp_path)

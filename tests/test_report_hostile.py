@@ -95,7 +95,9 @@ def test_set_cell_keeps_every_text_text():
 
 # --- 2. names as file names in a report --------------------------------------------------------------------------
 
-CLASHING = ["Oak/Bookcase", "oak bookcase", "OAK-BOOKCASE", "+++", "***", "A", "a", "CON", "../x",
+# Names a scenario accepts (they differ by more than case or spacing) that fold to one file name; names that
+# differ only in case ("A", "a") are refused by validation, and file_stems keeps even those apart (tested below).
+CLASHING = ["Oak/Bookcase", "oak bookcase", "OAK-BOOKCASE", "+++", "***", "A", "\u0391", "CON", "../x",
             "x" * 120 + "y"]
 
 

@@ -5,7 +5,9 @@ loss function of inventory theory, E[(X − k)⁺] = σ·G((k − μ)/σ) with
 G(z) = φ(z) − z·(1 − Φ(z)) (Silver, Pyke & Peterson, *Inventory Management and
 Production Planning and Scheduling*, 3rd ed., §B.3, from memory); the means of
 the triangular (low + mode + high)/3 and uniform (low + high)/2 distributions
-(handbook values); SCIP through pyscipopt for the re-optimised samples.
+(handbook values); SCIP through pyscipopt for the re-optimised samples; for the
+robust choice, every slate's plan from the highspy enumeration of tests/reference.py
+scored on the samples in numpy with the README's economics (``scored_by_hand``).
 """
 
 from __future__ import annotations
@@ -244,17 +246,92 @@ def test_cli_risk_unreachable_scheduler_is_a_clear_error(tmp_path, monkeypatch):
     assert "cannot reach the Dask scheduler at tcp://127.0.0.1:9" in res.output
 
 
-def test_robust_choice_scores_the_point_plan_like_the_evaluation_and_charts_are_written(tmp_path):
+def robust_case() -> dict:
+    """Three products on one press (invented): xeno pays at the point estimate (profit 1,000 alone)
+    but its intercept is uncertain (sd 20 on a margin of 40): made to plan, it sells clip(Q, 0, D),
+    so on average it loses its fixed cost's worth, and the robust slate drops it."""
+    return {"name": "robust", "plant_fixed_cost": 2000,
+            "products": [
+                {"name": "xeno", "price_intercept": 100, "price_slope": 0.1, "unit_cost": 60, "fixed_cost": 3000,
+                 "usage": {"press": 1.0}},
+                {"name": "yarrow", "price_intercept": 150, "price_slope": 0.05, "unit_cost": 50,
+                 "fixed_cost": 5000, "usage": {"press": 1.0}},
+                {"name": "zinnia", "price_intercept": 120, "price_slope": 0.08, "unit_cost": 40,
+                 "fixed_cost": 4000, "min_run": 100, "usage": {"press": 0.8}}],
+            "resources": [{"name": "press", "capacity": 1500}],
+            "uncertainty": [
+                {"product": "xeno", "field": "price_intercept", "distribution": "normal", "sd": 20},
+                {"product": "yarrow", "field": "price_intercept", "distribution": "normal", "sd": 10},
+                {"product": "zinnia", "field": "price_slope", "distribution": "uniform", "low": 0.06, "high": 0.1},
+                {"resource": "press", "field": "capacity", "distribution": "triangular",
+                 "low": 1300, "mode": 1500, "high": 1600}]}
+
+
+def scored_by_hand(nums, volume: np.ndarray, running: np.ndarray, A, B, V, H) -> np.ndarray:
+    """Profit of a fixed plan under each sample, from the README's economics, in numpy (currency).
+
+    Price kept at p = a − b·D; demand at p under the sample is Q = (a_s − p)/b_s; sold =
+    clip(Q, 0, D); if a sampled capacity cannot hold the sales, all are cut by θ = min_r H_r/used_r;
+    variable cost on what is sold; fixed costs of the running products and the plant always.
+    (Every product here has a slope, so no price-taker branch is needed.)
+    """
+    p = nums.a - nums.b * volume
+    sold = np.clip((A - p) / B, 0.0, volume)
+    used = sold @ nums.H.T
+    theta = np.minimum(1.0, np.min(np.where(used > 0, H / np.where(used > 0, used, 1.0), np.inf), axis=1))
+    sold = sold * theta[:, None]
+    return ((p - V) * sold).sum(axis=1) - nums.F[running | nums.forced].sum() - nums.plant
+
+
+def test_robust_choice_matches_an_independent_scoring_of_every_slate_and_charts_are_written(tmp_path):
+    # Reference: every slate's plan from the highspy enumeration of tests/reference.py (raw numbers),
+    # each scored on the same samples by scored_by_hand (numpy on the sample arrays); the robust
+    # choice must pick the slate with the greatest expected profit, here not the point plan's.
+    import itertools
+
     from planner.output.risk_charts import write_charts
 
-    s, _ = validate_scenario(small_uncertain())
-    r = run_risk(s, samples=60, seed=4, workers=0)
+    from .reference import scenario_numbers, slate_qp
+
+    s, _ = validate_scenario(robust_case())
+    N, seed = 200, 7
+    r = run_risk(s, samples=N, seed=seed, workers=0)
     rc = r.to_dict()["robust_choice"]
-    assert rc["point_plan"]["is_point_plan"]
-    # The point plan's candidate is the same plan: its score is the evaluation's own mean.
-    assert rc["point_plan"]["expected_profit"] == pytest.approx(float(np.mean(r.plan_profit)), rel=1e-7)
-    assert rc["best"]["expected_profit"] >= rc["point_plan"]["expected_profit"]
-    assert rc["point_plan"]["point_estimate_profit"] == pytest.approx(r.plan.profit, rel=1e-7)
+    nums = scenario_numbers(s)
+
+    def sample_numbers(sd):
+        d = draw_samples(s, N, sd)  # the samples are the input; the scoring below is ours
+        return (d.full("price_intercept", nums.a), d.full("price_slope", nums.b),
+                d.full("unit_cost", nums.v), d.full("capacity", nums.capacity))
+
+    here, check = sample_numbers(seed), sample_numbers(rc["check_seed"])
+    mine = {}
+    for bits in itertools.product([False, True], repeat=nums.n):
+        ans = slate_qp(nums, np.array(bits))
+        if ans is None or ans.status != "optimal":
+            continue
+        names = tuple(n for n, on in zip(nums.names, ans.running) if on)
+        mine[names] = (ans, float(np.mean(scored_by_hand(nums, ans.volume, ans.running, *here))),
+                       float(np.mean(scored_by_hand(nums, ans.volume, ans.running, *check))))
+    assert len(mine) == 8
+    for c in rc["candidates"]:
+        ans, expected, expected_check = mine[tuple(c["running"])]
+        assert c["expected_profit"] == pytest.approx(expected, rel=1e-9), c["running"]
+        assert c["expected_profit_check"] == pytest.approx(expected_check, rel=1e-9), c["running"]
+        assert c["point_estimate_profit"] == pytest.approx(ans.profit - nums.plant, rel=1e-9)
+        for name, vol in c["volumes"].items():
+            assert vol == pytest.approx(ans.volume[nums.names.index(name)], rel=1e-7)
+    best_of_all = max(mine, key=lambda k: mine[k][1])
+    assert best_of_all == ("yarrow", "zinnia")  # xeno dropped: it loses on average
+    assert tuple(rc["best"]["running"]) == best_of_all
+    assert rc["best"]["expected_profit"] == pytest.approx(mine[best_of_all][1], rel=1e-9)
+    point = tuple(n for n, p in zip(nums.names, r.plan.products) if p.running)
+    assert point == ("xeno", "yarrow", "zinnia") and rc["point_plan"]["running"] == list(point)
+    assert rc["point_plan"]["expected_profit"] == pytest.approx(mine[point][1], rel=1e-9)
+    assert mine[point][1] < mine[best_of_all][1] - 500  # a real difference, not a tie
+    assert rc["gain_on_check_samples"] == pytest.approx(mine[best_of_all][2] - mine[point][2], rel=1e-9)
+    # The point plan's score is also the risk evaluation's own mean of the plan's profit.
+    assert float(np.mean(r.plan_profit)) == pytest.approx(mine[point][1], rel=1e-9)
     paths = write_charts(r, tmp_path)
     assert sorted(p.name for p in paths) == ["profit_fan.png", "profit_histogram.png", "shadow_prices.png"]
     for p in paths:

@@ -119,9 +119,7 @@ def test_correlations():
     ]
 
 
-def test_correlations_that_cannot_hold_together():
-    from planner.analysis.risk.sampling import draw_samples
-
+def _cannot_hold() -> dict:
     raw = two_products()
     raw["products"].append({"name": "gizmo", "price_intercept": 60, "price_slope": 0.1, "unit_cost": 20,
                             "usage": {"press": 1}})
@@ -130,10 +128,67 @@ def test_correlations_that_cannot_hold_together():
     raw["correlations"] = [{"products": ["widget", "gadget"], "rho": 0.9},
                            {"products": ["gadget", "gizmo"], "rho": 0.9},
                            {"products": ["widget", "gizmo"], "rho": -0.9}]
+    return raw
+
+
+def test_correlations_that_cannot_hold_together():
+    """Refused by validation, so by `check` and every command alike (it was refused only by `risk`, with no file name).
+
+    Outside check (hand calculation): the matrix [[1, .9, -.9], [.9, 1, .9], [-.9, .9, 1]] has
+    determinant 1 - 3(.81) + 2(.9)(.9)(-.9) = -2.888 < 0, so it is no correlation matrix.
+    """
+    import numpy as np
+
+    R = np.array([[1, .9, -.9], [.9, 1, .9], [-.9, .9, 1]])
+    assert np.linalg.det(R) == pytest.approx(1 - 3 * 0.81 - 2 * 0.729)
+    assert problems(_cannot_hold()) == [
+        "correlations: the correlations widget–gadget 0.9, gadget–gizmo 0.9, widget–gizmo -0.9 cannot hold together "
+        "(the correlation matrix is not positive semi-definite) (weaken some of them: for example, if A goes with B "
+        "and B with C, A cannot go strongly against C)"]
+
+
+def test_only_the_pairs_that_conflict_are_named():
+    raw = _cannot_hold()
+    raw["products"].append({"name": "gear", "price_intercept": 60, "price_slope": 0.1, "unit_cost": 20,
+                            "usage": {"press": 1}})
+    raw["uncertainty"].append({"product": "gear", "field": "price_intercept", "distribution": "normal", "sd": 3})
+    raw["correlations"].append({"products": ["gear", "widget"], "rho": 0.3})
+    [p] = problems(raw)
+    assert "widget–gadget 0.9, gadget–gizmo 0.9, widget–gizmo -0.9 cannot" in p and "gear" not in p
+
+
+def test_correlations_that_hold_are_accepted():
+    """Equal correlations of 0.5 among three products: eigenvalues 2, 0.5, 0.5 (hand calculation), all >= 0."""
+    raw = _cannot_hold()
+    for c in raw["correlations"]:
+        c["rho"] = 0.5
     s, _ = validate_scenario(raw)
-    with pytest.raises(ScenarioError) as info:
-        draw_samples(s, 10, 0)
-    assert str(info.value.problems[0]) == (
-        "correlations: the correlations (widget–gadget 0.9, gadget–gizmo 0.9, widget–gizmo -0.9) cannot hold "
-        "together (their matrix is not positive definite) (weaken some of them; three products cannot all be "
-        "strongly correlated with opposite signs)")
+    assert [c.rho for c in s.correlations] == [0.5, 0.5, 0.5]
+
+
+def test_check_and_risk_name_the_file(tmp_path):
+    import yaml
+    from click.testing import CliRunner
+
+    from planner.cli.main import main
+
+    path = tmp_path / "corr.yaml"
+    path.write_text(yaml.safe_dump(_cannot_hold()))
+    for command in (["check", str(path)], ["risk", str(path), "--samples", "10"]):
+        res = CliRunner().invoke(main, command)
+        assert res.exit_code == 2, res.output
+        assert f"error: {path}: 1 problem in the scenario:\n  - correlations: the correlations" in res.stderr
+
+
+def test_a_scenario_changed_in_code_is_checked_again():
+    from planner.scenario.guard import check_correlations
+
+    raw = _cannot_hold()
+    for c in raw["correlations"]:
+        c["rho"] = 0.5
+    s, _ = validate_scenario(raw)
+    bad = s.model_copy(update={"correlations": [c.model_copy(update={"rho": -0.9 if i == 2 else 0.9})
+                                                for i, c in enumerate(s.correlations)]})
+    with pytest.raises(ScenarioError, match="cannot hold together"):
+        check_correlations(bad)
+    check_correlations(s)  # a valid one passes

@@ -151,17 +151,17 @@ def value_options(scenario: Scenario, base: Plan, **solve: Any) -> list[dict[str
 
 
 def report_context(plan: Plan, scenario: Scenario, source: str | Path = "", sweep: dict[str, Any] | None = None,
-                   with_options: bool = True, **solve: Any) -> ReportContext:
+                   with_options: bool = True, deadline: float | None = None, **solve: Any) -> ReportContext:
     """A report's inputs, with the analyses it shows run first (``solve``: rel_gap, time_limit, solver).
 
     Where the plan has not been through the capacity analysis it is run (shadow-price ranges and exact
-    option values, under the default time budget); where that leaves options unvalued they are valued
-    by :func:`value_options`.
+    option values, under the default time budget and ``deadline``, a ``time.perf_counter()`` value);
+    where that leaves options unvalued they are valued by :func:`value_options`.
     """
     from planner.analysis.capacity.analysis import add_capacity_analysis, auto_budget
 
     if with_options and "options" not in plan.extras:
-        add_capacity_analysis(plan, scenario, budget=auto_budget(plan))
+        add_capacity_analysis(plan, scenario, budget=auto_budget(plan), deadline=deadline)
     options = plan.extras.get("options")
     origin = "capacity analysis" if options else ""
     if not options and scenario.options and with_options:

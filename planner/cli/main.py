@@ -48,7 +48,8 @@ GAP_WHY = ("a plan within this gap is called optimal, so a looser one would prom
 CAPACITY_MAX = 1e15
 
 #: Modules that add commands to ``main`` when imported (each has ``register(main)``).
-COMMAND_MODULES: list[str] = ["planner.cli.data", "planner.cli.report", "planner.cli.risk", "planner.cli.sweep"]
+COMMAND_MODULES: list[str] = ["planner.cli.data", "planner.cli.report", "planner.cli.risk", "planner.cli.sweep",
+                              "planner.cli.compare", "planner.cli.serve"]
 
 
 def friendly(func):
@@ -236,10 +237,15 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
         if not quiet:
             console.print(f"model written to {write_model}")
         return
+    import time
+
     from planner.scenario.loading import load_scenario
 
+    t0 = time.perf_counter()
+    deadline = None if time_limit is None else t0 + time_limit  # the whole command, analysis included
     s, warns = load_scenario(scenario)
-    p = plan(s, rel_gap=rel_gap, time_limit=time_limit, solver=solver)
+    left = None if deadline is None else max(deadline - time.perf_counter(), 0.01)
+    p = plan(s, rel_gap=rel_gap, time_limit=left, solver=solver)
     p.warnings = list(warns) + p.warnings
     automatic = capacity is None
     if automatic:
@@ -250,8 +256,15 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
     if capacity:
         from planner.analysis.capacity.analysis import add_capacity_analysis, auto_budget
 
-        add_capacity_analysis(p, s, choose=choose_options, budget=auto_budget(p) if automatic else None)
-    chosen = chosen_plan(p, s, rel_gap=rel_gap, time_limit=time_limit, solver=solver) if choose_options else None
+        add_capacity_analysis(p, s, choose=choose_options, budget=auto_budget(p) if automatic else None,
+                              deadline=deadline)
+    chosen = None
+    if choose_options:
+        left = None if deadline is None else deadline - time.perf_counter()
+        if left is None or left > 0:
+            chosen = chosen_plan(p, s, rel_gap=rel_gap, time_limit=left, solver=solver)
+        else:
+            p.warnings.append("the plan with the options chosen is not shown: the time limit is spent")
     if json_path:
         write_text_atomic(json_path, p.to_json())
     if not quiet:

@@ -68,9 +68,13 @@ def register(main: click.Group) -> None:
 
         check_folder(out_dir, "the report (--out)")  # before any solving: a wrong --out is found at once
         sweep = load_sweep_file(sweep_file) if sweep_file is not None else None
+        import time
+
+        t0 = time.perf_counter()
+        deadline = None if time_limit is None else t0 + time_limit  # the plan and its analysis
         s, warnings = load_scenario(scenario)
         solve = {"rel_gap": rel_gap, "time_limit": time_limit, "solver": solver}
-        p = plan(s, **solve)
+        p = plan(s, **{**solve, "time_limit": None if deadline is None else max(deadline - time.perf_counter(), 0.01)})
         p.warnings[:0] = [w for w in warnings if w not in p.warnings]
         if sweep_resource is not None:
             if not quiet:
@@ -78,7 +82,8 @@ def register(main: click.Group) -> None:
             sweep = sweep_for_report(s, sweep_resource, steps=sweep_steps, base=p, **solve)
         if not quiet and s.options and not no_options and not p.extras.get("options"):
             console.print(f"[dim]valuing {len(s.options)} capacity options by re-solving ...[/]")
-        ctx = report_context(p, s, source=scenario, sweep=sweep, with_options=not no_options, **solve)
+        ctx = report_context(p, s, source=scenario, sweep=sweep, with_options=not no_options, deadline=deadline,
+                             **solve)
         add_option_rates(p, s)  # the terminal shows a part-usable option's rate
         if risk_samples is not None:
             from planner.analysis.risk.run import run_risk

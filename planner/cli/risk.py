@@ -168,6 +168,14 @@ def risk_cmd(scenario: Path, samples: int, seed: int, json_path: Path | None, ch
                 f"starting {workers} worker{'s' if workers != 1 else ''}" if workers else "starting a worker per core")
         err_console.print(f"[dim]{samples:,} samples, seed {seed}: {escape(first)}planning the point estimate, "
                           f"drawing samples, {then} ...[/]")
+    if charts_dir is not None:  # before any solve: an output that cannot be written fails at once
+        from planner.files import check_folder
+
+        check_folder(charts_dir, "the risk charts (--charts)")
+    if json_path is not None:
+        from planner.files import check_target
+
+        check_target(json_path)
     client = connect(scheduler) if scheduler else None  # before any solve: a wrong address fails at once
     try:
         result = run_risk(s, samples=samples, seed=seed, rel_gap=rel_gap, scheduler=scheduler, client=client,
@@ -205,7 +213,10 @@ def _money(cur: str, x: float | None) -> str:
 
 
 def print_risk(result: RiskResult, summary: dict) -> None:
-    """The risk summary in the terminal."""
+    """The risk summary in the terminal (names with control and invisible characters escaped)."""
+    from planner.output.text import display_copy
+
+    result, summary = display_copy(result), display_copy(summary)
     cur, per = result.plan.currency, result.plan.period
     n = result.samples
     pp, bp = summary["plan_profit"], summary["best_profit"]

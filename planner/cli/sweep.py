@@ -220,9 +220,11 @@ def write_csv(sw: Sweep, path: Path) -> Path:
 
 
 def print_sweep(sw: Sweep, console: Console) -> None:
-    """The points and the change points as two tables."""
+    """The points and the change points as two tables (names with control and invisible characters escaped)."""
     from planner.output.plan import LABOUR_NOTE
+    from planner.output.text import display_copy
 
+    sw = display_copy(sw)
     c, unit = sw.currency, f" {sw.unit}" if sw.unit else ""
     t = table(f"Sweep of {escape(sw.resource)}")
     for col in ("capacity", "profit", "shadow price", "bottleneck", "running"):
@@ -233,7 +235,7 @@ def print_sweep(sw: Sweep, console: Console) -> None:
         if prev is not None and p.slate != prev:
             running += " [yellow]*[/]"
         prev = p.slate
-        t.add_row(qty(p.capacity) + unit, money(p.profit, c), f"{c}{p.shadow_price:,.2f}", p.bottleneck or "—",
+        t.add_row(qty(p.capacity) + unit, money(p.profit, c), f"{c}{p.shadow_price:,.2f}", escape(p.bottleneck or "—"),
                   running)
     console.print(t)
     console.print("[dim]running: how many products run (* the slate changed since the row above)[/]")
@@ -244,7 +246,7 @@ def print_sweep(sw: Sweep, console: Console) -> None:
     for x in sw.breakpoints:
         profit = money(x.profit, c) + (f" → {money(x.profit_above, c)}" if x.profit_above is not None else "")
         b.add_row(f"{x.capacity:,.4f}{unit}", profit,
-                  f"{c}{x.shadow_price_below:,.2f} → {c}{x.shadow_price_above:,.2f}", x.change)
+                  f"{c}{x.shadow_price_below:,.2f} → {c}{x.shadow_price_above:,.2f}", escape(x.change))
     if sw.breakpoints:
         console.print(b)
     else:

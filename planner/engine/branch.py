@@ -59,6 +59,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from planner.engine.certificate import Certificate
 from planner.engine.dual import DualPoint, choice_bounds
 from planner.engine.flips import improve
 from planner.engine.problem import Problem
@@ -119,14 +120,14 @@ def applicable(p: Problem, J: np.ndarray) -> bool:
     return all(p.families[f].choice_terms(lam, local[:1]) is not None for f, _, local in p.family_of(J))
 
 
-def branch_and_bound(p: Problem, slates, points: list[DualPoint], rel_gap: float, money: float,
+def branch_and_bound(p: Problem, slates, points: list[DualPoint], rel_gap: float, cert: Certificate,
                      deadline: float | None = None, max_nodes: int = BRANCH_NODES) -> Branched:
     """Search the choices the Lagrangian leaves open (see the module docstring).
 
     ``slates``: the search's :class:`planner.engine.search.Slates` (incumbent and
     cache; every improvement goes through its QP).  ``points``: dual points met so far.
     """
-    scale = lambda: max(abs(slates.value), 1.0 / money)  # noqa: E731
+    scale = lambda: max(abs(slates.value - cert.offset), 1.0 / cert.money)  # noqa: E731
     target = lambda: slates.value + (1.0 - 1e-3) * rel_gap * scale()  # noqa: E731
     K = p.n_choices
     stop_b, run_b = choice_bounds(points, K)

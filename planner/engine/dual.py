@@ -30,6 +30,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from planner.engine import highs
+from planner.engine.certificate import Certificate
 from planner.engine.problem import Problem
 from planner.engine.settings import BUNDLE_SIZE, DUAL_STEPS, PROJECT_SECONDS
 
@@ -104,12 +105,12 @@ def price_box(p: Problem) -> np.ndarray:
 def minimise(p: Problem, rel_tol: float = 1e-6, max_steps: int = DUAL_STEPS, start: list[np.ndarray] | None = None,
              deadline: float | None = None, target: float = -np.inf, level: float = 0.3,
              bundle: list[DualPoint] | None = None, threads: int = 1, seed: int = 0,
-             money: float = 1.0) -> DualResult:
-    """Minimise L over λ ≥ 0 until (best − lower) ≤ rel_tol·max(|best|, 1/money), L ≤ target, or the limits.
+             cert: Certificate = Certificate()) -> DualResult:
+    """Minimise L over λ ≥ 0 until (best − lower) ≤ rel_tol·max(|best − offset|, 1), L ≤ target, or the limits.
 
     ``start``: multipliers to evaluate first (a warm start); ``bundle``: points
-    already evaluated (to resume); ``money``: currency per unit of the
-    problem's money (the gap's floor of 1 is in the scenario's currency).
+    already evaluated (to resume); ``cert``: the money scale and the plant-wide
+    offset the gap is measured with.
     """
     t0 = time.perf_counter()
     points = list(bundle or []) + [evaluate(p, s) for s in (start or [])]
@@ -134,7 +135,7 @@ def minimise(p: Problem, rel_tol: float = 1e-6, max_steps: int = DUAL_STEPS, sta
             break
         low, kelley = got
         lower = max(lower, low)
-        if best.value - lower <= rel_tol * max(abs(best.value), 1.0 / money):
+        if best.value - lower <= cert.slack(rel_tol, best.value):
             break
         nxt = _project(G, f0, box, best.lam, lower + level * (best.value - lower), threads, seed)
         if nxt is None:  # HiGHS could not project (seen on near-degenerate bundles): a cutting-plane step

@@ -27,7 +27,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from models.data import MixData
-from planner.engine.certificate import relative_gap
+from planner.engine.certificate import Certificate, relative_gap
 from planner.engine.dual import minimise
 from planner.engine.highs import Status
 from planner.engine.infeasible import check_commitments, iis_names
@@ -59,18 +59,23 @@ class Solution:
     dual_steps: int = 0  # multiplier steps of the Lagrangian bound
     multipliers: np.ndarray | None = None  # currency per resource unit: the best Lagrangian λ met
     multipliers_tried: list = field(default_factory=list)  # λ's worth a warm start next time
+    offset: float = 0.0  # currency: the plant-wide fixed cost, subtracted before the gap is measured
 
     @property
     def gap(self) -> float:
-        return relative_gap(self.bound, self.objective)
+        """The certified gap of the plan's profit: (bound − profit) / max(|profit|, 1), profit after ``offset``."""
+        return relative_gap(self.bound - self.offset, self.objective - self.offset)
 
 
 class Engine:
     """The solve engine of one scenario's data (see the module docstring)."""
 
     def __init__(self, d: MixData, threads: int = 1, seed: int = 0, scaled: bool = True,
-                 units: dict[str, str] | None = None) -> None:
+                 units: dict[str, str] | None = None, offset: float = 0.0) -> None:
+        """``offset``: the plant-wide fixed cost (currency), which no decision changes but which the
+        certificate is measured after: the gap is that of the plan's profit, not of the products' alone."""
         self.base = d
+        self.offset = float(offset)
         self.threads, self.seed = int(threads), int(seed)
         self.scales = Scales.of(d) if scaled else Scales.identity(d)
         self.units = units
@@ -128,7 +133,8 @@ class Engine:
             if warm and self._warm:
                 lam = self._warm + lam
             found = search(p, rel_gap, deadline, self.threads, self.seed, self.scales.money, lam,
-                           [p.choice(np.asarray(z, dtype=bool)) for z in known])
+                           [p.choice(np.asarray(z, dtype=bool)) for z in known],
+                           offset=self.offset / self.scales.money)
             sol = self._solution(d, p, found)
             if warm:
                 self._warm = [self.scales.prices_in(x) for x in sol.multipliers_tried[-10:]] + \
@@ -168,9 +174,11 @@ class Engine:
         d = self.data(**changes)
         p = self.problem(d)
         mu = self.scales.money
-        target = (profit + rel_gap * max(abs(profit), 1.0)) / mu
+        net = profit - self.offset
+        target = (profit + rel_gap * max(abs(net), 1.0)) / mu
         res = minimise(p, rel_tol=rel_gap / 4, start=self._warm if warm else None, target=target,
-                       max_steps=max_steps, threads=self.threads, seed=self.seed, money=mu)
+                       max_steps=max_steps, threads=self.threads, seed=self.seed,
+                       cert=Certificate(mu, self.offset / mu))
         if res.best.value <= target:
             if warm:
                 self._warm = [q.lam for q in res.points[-10:]]
@@ -205,4 +213,5 @@ class Engine:
         check_plan(d, volume, running, scale)
         objective = res.objective * mu
         return Solution(str(status), volume, running, objective, max(bound * mu, objective),
-                        self.scales.prices_out(res.duals), strategy, qp_method=res.method, option_scale=scale)
+                        self.scales.prices_out(res.duals), strategy, qp_method=res.method, option_scale=scale,
+                        offset=self.offset)

@@ -24,6 +24,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from planner.engine.certificate import Certificate
 from planner.engine.dual import DualPoint, evaluate
 from planner.engine.problem import Problem
 from planner.engine.settings import ENUMERATE_QPS
@@ -46,7 +47,7 @@ class Enumerated:
     qps: int = 0
 
 
-def enumerate_slates(p: Problem, evaluate_slate, rel_gap: float, money: float, first: np.ndarray | None,
+def enumerate_slates(p: Problem, evaluate_slate, rel_gap: float, cert: Certificate, first: np.ndarray | None,
                      deadline: float | None = None, max_qps: int = ENUMERATE_QPS) -> Enumerated:
     """Bound every slate and solve the best ones (see the module docstring).
 
@@ -78,7 +79,7 @@ def enumerate_slates(p: Problem, evaluate_slate, rel_gap: float, money: float, f
             pt = evaluate(p, res.duals)
             points.append(pt)
             _tighten(ub, solved, Y, pt)
-        floor = best + rel_gap * max(abs(best), 1.0 / money) if np.isfinite(best) else -np.inf
+        floor = best + cert.slack(rel_gap, best) if np.isfinite(best) else -np.inf
         open_ = ~solved & (ub > floor)
         if not open_.any():
             return Enumerated(True, float(np.max(ub)), points, qps)

@@ -48,7 +48,7 @@ def solve_other(engine, d: MixData, name: str, rel_gap: float, time_limit: float
     taken = None
     if d.n_options:
         taken = np.array([(m.option_scale[o].value or 0.0) > 0.5 for o in d.options]) & d.opt_whole
-    sol = type(engine)(d, engine.threads, engine.seed).slate(running, taken)  # d has this solve's changes
+    sol = type(engine)(d, engine.threads, engine.seed, offset=engine.offset).slate(running, taken)  # d: this solve's changes
     if sol.status != "optimal":
         raise SolverError(f"the slate {name} chose could not be solved as a QP ({'; '.join(sol.messages)})")
     ub = getattr(res.problem, "upper_bound", None)

@@ -38,7 +38,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from planner.engine.branch import branch_and_bound
-from planner.engine.certificate import relative_gap
+from planner.engine.certificate import Certificate
 from planner.engine.cutmilp import CutMilp
 from planner.engine.dual import DualPoint, choice_bounds, evaluate, minimise
 from planner.engine.enumerate import enumerate_slates
@@ -90,12 +90,15 @@ class Slates:
 
 def search(p: Problem, rel_gap: float, deadline: float | None = None, threads: int = 1, seed: int = 0,
            money: float = 1.0, start: list[np.ndarray] | None = None,
-           known: list[np.ndarray] = ()) -> Found:
+           known: list[np.ndarray] = (), offset: float = 0.0) -> Found:
     """The best choice of ``p`` to ``rel_gap`` by ``deadline`` (a ``time.perf_counter()`` value).
 
     ``start``: multipliers to try first (warm start); ``known``: choices to solve first as incumbents;
-    ``money``: currency per unit of the problem's money (for the gap's floor of 1 currency).
+    ``money``: currency per unit of the problem's money (for the gap's floor of 1 currency);
+    ``offset``: a constant (the plant-wide fixed cost, in the problem's money) subtracted from profit
+    and bound before every gap test, so the certificate is that of the plan's own profit.
     """
+    cert = Certificate(money, offset)
     def left() -> float | None:
         return None if deadline is None else max(deadline - time.perf_counter(), 0.01)
 
@@ -103,7 +106,7 @@ def search(p: Problem, rel_gap: float, deadline: float | None = None, threads: i
         return deadline is not None and time.perf_counter() >= deadline
 
     def gap(bound: float) -> float:
-        return relative_gap(bound, slates.value, money)
+        return cert.gap(bound, slates.value)
 
     slates = Slates(p, threads, seed, left)
     if p.n_choices == 0:
@@ -119,7 +122,7 @@ def search(p: Problem, rel_gap: float, deadline: float | None = None, threads: i
     bound = np.inf
     if p.n_choices <= ENUMERATE_UP_TO:
         first = slates.best.choice if slates.best is not None else None
-        en = enumerate_slates(p, slates.evaluate, rel_gap, money, first, deadline)
+        en = enumerate_slates(p, slates.evaluate, rel_gap, cert, first, deadline)
         points = en.points
         bound = en.bound
         if slates.best is not None and (en.certified or gap(bound) <= rel_gap):
@@ -131,18 +134,18 @@ def search(p: Problem, rel_gap: float, deadline: float | None = None, threads: i
                          messages=["no slate is feasible although the commitments fit"])
         messages.append(f"enumeration handed over after {en.qps} slate QPs")
     # the Lagrangian bound and its slates; with an incumbent, stop as soon as it is certified
-    target = slates.value + 0.5 * rel_gap * max(abs(slates.value), 1.0 / money) if slates.best else -np.inf
+    target = slates.value + 0.5 * cert.slack(rel_gap, slates.value) if slates.best else -np.inf
     dual = minimise(p, rel_tol=max(rel_gap / 4, 1e-9), start=start, deadline=deadline, target=target,
-                    bundle=points, threads=threads, seed=seed, money=money)
+                    bundle=points, threads=threads, seed=seed, cert=cert)
     bound = min(bound, dual.best.value)
     steps = dual.steps
     _try(slates, dual.points, 1 if slates.best is not None and gap(bound) <= rel_gap else 3, out_of_time)
     if slates.best is not None and gap(bound) > rel_gap and not out_of_time():
         # the QP's shadow prices are a good point for the dual too; then tighten towards the incumbent
         more = minimise(p, rel_tol=max(rel_gap / 20, 1e-10), deadline=deadline,
-                        target=slates.value + 0.5 * rel_gap * max(abs(slates.value), 1.0 / money),
+                        target=slates.value + 0.5 * cert.slack(rel_gap, slates.value),
                         bundle=dual.points + [evaluate(p, slates.best.duals)], threads=threads, seed=seed,
-                        money=money)
+                        cert=cert)
         steps += more.steps
         bound = min(bound, more.best.value)
         _try(slates, more.points[len(dual.points):], 3, out_of_time)
@@ -165,7 +168,7 @@ def search(p: Problem, rel_gap: float, deadline: float | None = None, threads: i
         slates.evaluate(improve(p, best.choice, best.duals, best.objective, deadline)[0])
         if gap(bound) > rel_gap and not out_of_time():
             fine = minimise(p, rel_tol=BRANCH_DUAL_TOL, deadline=deadline, bundle=dual.points, threads=threads,
-                            seed=seed, money=money)
+                            seed=seed, cert=cert)
             steps += fine.steps
             bound = min(bound, fine.best.value)
             dual = fine
@@ -176,7 +179,7 @@ def search(p: Problem, rel_gap: float, deadline: float | None = None, threads: i
         if gap(bound) <= rel_gap:
             messages.append("a better slate by flipping marginal choices")
             return found(Status.OPTIMAL, "lagrangian+flips")
-        br = branch_and_bound(p, slates, dual.points, rel_gap, money, deadline)
+        br = branch_and_bound(p, slates, dual.points, rel_gap, cert, deadline)
         bound = min(bound, br.bound)
         if br.reason != "not_applicable":
             messages.append(f"branch-and-bound over the Lagrangian: {br.nodes} node{'s' if br.nodes != 1 else ''}")
@@ -184,7 +187,7 @@ def search(p: Problem, rel_gap: float, deadline: float | None = None, threads: i
             return found(Status.OPTIMAL, "lagrangian+branch")
         if br.reason == "time_limit" or out_of_time():
             return _fallback(p, slates, found, messages, "lagrangian+branch")
-    return _milp(p, slates, dual.points, bound, rel_gap, money, threads, seed, left, out_of_time, found, messages)
+    return _milp(p, slates, dual.points, bound, rel_gap, cert, threads, seed, left, out_of_time, found, messages)
 
 
 def _try(slates: Slates, points: list[DualPoint], few: int, out_of_time) -> None:
@@ -208,7 +211,7 @@ def _fallback(p: Problem, slates: Slates, found, messages: list[str], strategy: 
     return found(Status.TIME_LIMIT, strategy, rounds)
 
 
-def _milp(p: Problem, slates: Slates, points: list[DualPoint], bound: float, rel_gap: float, money: float,
+def _milp(p: Problem, slates: Slates, points: list[DualPoint], bound: float, rel_gap: float, cert: "Certificate",
           threads: int, seed: int, left, out_of_time, found, messages: list[str]) -> Found:
     """The tangent-cut MILP where the Lagrangian leaves the gap open (step 5 of the module docstring)."""
     lag_bound = bound
@@ -230,11 +233,11 @@ def _milp(p: Problem, slates: Slates, points: list[DualPoint], bound: float, rel
         if rounds >= MAX_ROUNDS:
             status = Status.ERROR
             messages.append(f"stopped after {rounds} cut rounds at gap "
-                            f"{relative_gap(bound_now, slates.value, money):.2e}, above the {rel_gap:.1e} asked for")
+                            f"{cert.gap(bound_now, slates.value):.2e}, above the {rel_gap:.1e} asked for")
             break
         rounds += 1
         if slates.best is not None:
-            thr = slates.value + 0.5 * rel_gap * max(abs(slates.value), 1.0 / money)
+            thr = slates.value + 0.5 * cert.slack(rel_gap, slates.value)
             to_on = ~fixed & (stop_bound < thr) & (run_bound >= thr)
             to_off = ~fixed & (run_bound < thr) & (stop_bound >= thr)
             if to_on.any() or to_off.any():
@@ -245,7 +248,7 @@ def _milp(p: Problem, slates: Slates, points: list[DualPoint], bound: float, rel
                 milp_bound = np.inf  # the restricted MILP's bound is taken afresh
             milp.start_from(slates.best.values, slates.best.choice)
         # early rounds only place cuts: solve them loosely, the last ones to the target, then exactly
-        gap_now = relative_gap(bound_now, slates.value, money)
+        gap_now = cert.gap(bound_now, slates.value)
         mip_gap = 0.0 if exact else (rel_gap / 4 if tight else float(max(rel_gap / 4, 0.1 * gap_now)))
         res = milp.solve(left(), mip_gap)
         if res.outcome == Outcome.INFEASIBLE:
@@ -265,7 +268,7 @@ def _milp(p: Problem, slates: Slates, points: list[DualPoint], bound: float, rel
                 messages.append(f"HiGHS ended the cut MILP with '{res.outcome}'")
             break
         qp = slates.evaluate(res.choice)
-        if relative_gap(bound_now, slates.value, money) <= rel_gap:
+        if cert.gap(bound_now, slates.value) <= rel_gap:
             break
         if res.outcome == Outcome.TIME_LIMIT or out_of_time():
             status = Status.TIME_LIMIT
@@ -296,7 +299,7 @@ def _milp(p: Problem, slates: Slates, points: list[DualPoint], bound: float, rel
     elif slates.best is None:
         out.status = Status.ERROR
         messages.append("no feasible slate was found")
-    elif status == Status.OPTIMAL and relative_gap(out.bound, slates.value, money) > rel_gap:
+    elif status == Status.OPTIMAL and cert.gap(out.bound, slates.value) > rel_gap:
         out.status = Status.ERROR
         messages.append("the search ended without certifying the gap asked for")
     return out

@@ -26,6 +26,8 @@ KKT_REDUCED = 1e-7
 SLACK_ROW = 1e-7
 #: Largest linear system the polish solves (active rows + free fixed-price columns).
 KKT_MAX_SYSTEM = 3000
+#: Corrections of the active set the polish may make before it gives up (each one linear solve).
+KKT_REPAIRS = 8
 
 # --- Fixed-slate QP (planner.engine.slateqp)
 #: Running products from which HiGHS's interior-point QP ('hipo') is tried first (measured: the

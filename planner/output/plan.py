@@ -32,7 +32,8 @@ class ProductPlan:
     profit: float  # currency, contribution − fixed cost
     unit: str
     standalone: Standalone
-    must_run: bool = False
+    must_run: bool = False  # may not be shut down: its must_run, or a committed min_volume
+    forced: str = ""  # why it may not be shut down: "must_run", "min_volume" (a commitment), "" if it may
 
     @property
     def sold_price(self) -> float | None:

@@ -45,13 +45,9 @@ def sold_price(x: ProductPlan) -> float | None:
 
 def run_label(x: ProductPlan, scenario: Scenario | None = None) -> str:
     """Why a product runs: 'must' (must_run: may not be shut down), 'committed' (its min_volume > 0 makes
-    it run), 'yes' (chosen to run) or 'off' (shut down).  Without the scenario a forced product is 'must'."""
+    it run), 'yes' (chosen to run) or 'off' (shut down)."""
     if x.must_run:
-        if scenario is not None:
-            sp = next((q for q in scenario.products if q.name == x.name), None)
-            if sp is not None and not sp.must_run and sp.min_volume > 0:
-                return "committed"
-        return "must"
+        return "committed" if x.forced == "min_volume" else "must"
     return "yes" if x.running else "[red]off[/]"
 
 
@@ -209,7 +205,9 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True,
         if binding:
             top = binding[0]
             con.print(f"Bottleneck: [bold]{escape(top.name)}[/] — one more {escape(top.unit or 'unit')} is worth "
-                      f"{money(top.shadow_price, p.currency, 2)} of profit (for a small change; re-solve for a shift).")
+                      f"{money(top.shadow_price, p.currency, 2)} of profit, 1 % more capacity about "
+                      f"{money(top.value_of_one_percent, p.currency)} (for a small change; re-solve for a shift). "
+                      "[dim]The bottleneck is the binding limit whose extra 1 % is worth most, whatever its unit.[/]")
         con.print()
     if any(getattr(r, "shadow_price_range", None) is not None for r in p.resources) or p.extras.get("options"):
         from planner.output.capacity import print_capacity

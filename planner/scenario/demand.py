@@ -22,12 +22,12 @@ Point elasticity ε = (dQ/dP)·(P/Q).  On the line dQ/dP = −1/b, so at
 
 from __future__ import annotations
 
-import math
 from pathlib import Path
 from typing import Any
 
 from planner.errors import Problem
 from planner.scenario.fit import METHODS, DemandLine, fit_line, read_history
+from planner.scenario.numbers import Unusable, number_or_problem
 
 FORMS = {"points": ("points",), "elasticity": ("reference_price", "reference_volume", "elasticity"),
          "history": ("history",)}
@@ -52,8 +52,15 @@ def point_elasticity(intercept: float, slope: float, volume: float) -> float:
     return -price / (slope * volume)
 
 
-def _num(x: Any) -> bool:
-    return isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x)
+def _number(v: Any, where: str, problems: list[Problem], what: str = "") -> float | None:
+    """``v`` by the number rule of :mod:`planner.scenario.numbers`, or None with a problem added."""
+    value, message, fix = number_or_problem(v)
+    if value is None:
+        quoted = isinstance(v, Unusable) or message.startswith("must be a plain decimal number")
+        shown = "" if quoted else f" (got {v!r})"
+        place = f"{v.place()} ({where})" if isinstance(v, Unusable) and v.place() else where
+        problems.append(Problem(place, f"{what}{message}{shown}", fix))
+    return value
 
 
 def _label(p: dict, i: int) -> str:
@@ -155,11 +162,17 @@ def _expand_one(spec: Any, product: dict, label: str, hist: _Histories, problems
 def _points(pts: Any, where: str, problems: list[Problem]):
     w = f"{where}.points"
     ok = (isinstance(pts, (list, tuple)) and len(pts) == 2
-          and all(isinstance(x, (list, tuple)) and len(x) == 2 and all(_num(v) for v in x) for x in pts))
+          and all(isinstance(x, (list, tuple)) and len(x) == 2 for x in pts))
     if not ok:
         problems.append(Problem(w, f"must be two [price, volume] pairs of numbers (got {pts!r})",
                                 "e.g. points: [[540, 1200], [600, 900]]"))
         return None
+    before = len(problems)
+    read = [[_number(v, w, problems, f"point {k + 1}'s {('price', 'volume')[j]} ") for j, v in enumerate(x)]
+            for k, x in enumerate(pts)]
+    if len(problems) > before:
+        return None
+    pts = read
     (p1, q1), (p2, q2) = pts
     if min(p1, q1, p2, q2) < 0:
         problems.append(Problem(w, f"prices and volumes must be >= 0 (got {pts!r})"))
@@ -182,10 +195,8 @@ def _elasticity(spec: dict, where: str, problems: list[Problem]):
         v = spec.get(k)
         if v is None:
             problems.append(Problem(f"{where}.{k}", "is required with the elasticity form", "add it"))
-        elif not _num(v):
-            problems.append(Problem(f"{where}.{k}", f"must be a number (got {v!r})"))
-        else:
-            vals[k] = float(v)
+        elif (x := _number(v, f"{where}.{k}", problems)) is not None:
+            vals[k] = x
     if len(vals) < 3:
         return None
     P, Q, e = vals["reference_price"], vals["reference_volume"], vals["elasticity"]

@@ -20,7 +20,11 @@ PyYAML (which also gives the located error messages):
 - any parse error, including a key given twice, declines it too.
 
 Both checks are conservative: a decline costs only time.  The differential
-tests in ``tests/test_fastyaml.py`` hold the fast path to PyYAML's result.
+tests in ``tests/test_fastyaml.py`` hold the fast path to PyYAML's result and
+to the planner's own loader (:func:`planner.scenario.loading.parse_yaml`),
+which keeps numbers spelled otherwise than in plain decimal (``0400``,
+``6:40``, ``4_00``, ``{a: 4,160}``) as written: no such scalar passes the
+whitelist, so the two always agree on what the fast path takes.
 """
 
 from __future__ import annotations

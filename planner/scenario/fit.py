@@ -39,6 +39,8 @@ from typing import Any
 import numpy as np
 
 from planner.errors import Problem
+from planner.scenario.forms.csvdir import separator_message, separator_problem
+from planner.scenario.numbers import number_or_problem
 
 #: Fewer observations than this get a "too few points" warning (rule of thumb of this tool).
 FEW_POINTS = 8
@@ -49,69 +51,13 @@ METHODS = ("volume-on-price", "price-on-volume")
 
 # ---------------------------------------------------------------- statistics
 
-def _betacf(a: float, b: float, x: float) -> float:
-    """Continued fraction of the incomplete beta function (modified Lentz, Numerical Recipes §6.4)."""
-    tiny, eps = 1e-300, 1e-16
-    qab, qap, qam = a + b, a + 1.0, a - 1.0
-    c, d = 1.0, 1.0 - qab * x / qap
-    d = 1.0 / (d if abs(d) > tiny else tiny)
-    h = d
-    for m in range(1, 500):
-        m2 = 2 * m
-        aa = m * (b - m) * x / ((qam + m2) * (a + m2))
-        d = 1.0 + aa * d
-        d = 1.0 / (d if abs(d) > tiny else tiny)
-        c = 1.0 + aa / c
-        c = c if abs(c) > tiny else tiny
-        h *= d * c
-        aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2))
-        d = 1.0 + aa * d
-        d = 1.0 / (d if abs(d) > tiny else tiny)
-        c = 1.0 + aa / c
-        c = c if abs(c) > tiny else tiny
-        delta = d * c
-        h *= delta
-        if abs(delta - 1.0) < eps:
-            break
-    return h
-
-
-def betainc(a: float, b: float, x: float) -> float:
-    """Regularised incomplete beta function I_x(a, b), 0 ≤ x ≤ 1."""
-    if x <= 0.0:
-        return 0.0
-    if x >= 1.0:
-        return 1.0
-    front = math.exp(math.lgamma(a + b) - math.lgamma(a) - math.lgamma(b) + a * math.log(x) + b * math.log1p(-x))
-    if x < (a + 1.0) / (a + b + 2.0):
-        return front * _betacf(a, b, x) / a
-    return 1.0 - front * _betacf(b, a, 1.0 - x) / b
-
-
-def t_cdf(t: float, df: float) -> float:
-    """Student t distribution function with ``df`` degrees of freedom."""
-    tail = 0.5 * betainc(df / 2.0, 0.5, df / (df + t * t))
-    return 1.0 - tail if t >= 0 else tail
-
-
 def t_quantile(p: float, df: float) -> float:
-    """The t value with P(T ≤ t) = p (0 < p < 1), by bisection to machine precision."""
+    """The Student t value with P(T ≤ t) = p (0 < p < 1) for ``df`` degrees of freedom (scipy.stats.t)."""
+    from scipy.stats import t
+
     if not 0.0 < p < 1.0:
         raise ValueError("p must be in (0, 1)")
-    if p < 0.5:
-        return -t_quantile(1.0 - p, df)
-    lo, hi = 0.0, 1.0
-    while t_cdf(hi, df) < p:
-        lo, hi = hi, hi * 2.0
-    for _ in range(200):
-        mid = 0.5 * (lo + hi)
-        if mid in (lo, hi):
-            break
-        if t_cdf(mid, df) < p:
-            lo = mid
-        else:
-            hi = mid
-    return 0.5 * (lo + hi)
+    return float(t.ppf(p, df))
 
 
 @dataclass(frozen=True)
@@ -303,11 +249,22 @@ def read_history(path: str | Path) -> tuple[dict[str, dict[str, list]], list[Pro
         text = p.read_text(encoding="utf-8-sig")
     except OSError as e:
         return {}, [Problem(str(p), f"cannot be read: {e.strerror or e}", "check the history file's path")]
+    first = text.split("\n", 1)[0].rstrip("\r")
+    odd = separator_problem(first)
+    if odd:
+        message, fix = separator_message(odd)
+        return {}, [Problem(p.name, message, fix)]
     rows = list(csv.reader(text.splitlines()))
     if not rows:
         return {}, [Problem(str(p), "is empty", "give a header row: product,price,volume[,period]")]
     header = [h.strip().lower() for h in rows[0]]
     problems = []
+    for need in ("product", "price", "volume", "period"):
+        where = [i + 1 for i, h in enumerate(header) if h == need]
+        if len(where) > 1:
+            shown = " and ".join(f"{_letter(i - 1)} ({rows[0][i - 1].strip()!r})" for i in where)
+            problems.append(Problem(f"{p.name}, row 1", f"has the heading '{need}' {len(where)} times: columns {shown}",
+                                    "keep one of the columns, or rename the others"))
     for need in ("product", "price", "volume"):
         if need not in header:
             from planner.scenario.names import did_you_mean
@@ -328,14 +285,13 @@ def read_history(path: str | Path) -> tuple[dict[str, dict[str, list]], list[Pro
             continue
         vals = {}
         for k in ("price", "volume"):
-            try:
-                v = float(cell(k))
-                if not math.isfinite(v) or v < 0:
-                    raise ValueError
+            v, message, fix = number_or_problem(cell(k))  # the scenario's number rule (planner.scenario.numbers)
+            if v is None and message.startswith(("must be a plain decimal", "is too")):
+                problems.append(Problem(f"{p.name}, row {r}, column {k}", f"{message} (got {cell(k)!r})", fix))
+            elif v is None or v < 0:
+                problems.append(Problem(f"{p.name}, row {r}, column {k}", f"must be a number >= 0 (got {cell(k)!r})"))
+            else:
                 vals[k] = v
-            except ValueError:
-                problems.append(Problem(f"{p.name}, row {r}, column {k}",
-                                        f"must be a number >= 0 (got {cell(k)!r})"))
         if len(vals) < 2:
             continue
         d = out.setdefault(name, {"price": [], "volume": [], "period": [], "rows": []})
@@ -345,6 +301,16 @@ def read_history(path: str | Path) -> tuple[dict[str, dict[str, list]], list[Pro
         if "period" in col and cell("period"):
             d["period"].append(cell("period"))
     return out, problems
+
+
+def _letter(i: int) -> str:
+    """Spreadsheet column letter of 0-based column ``i`` (A, B, ..., Z, AA ...)."""
+    s = ""
+    i += 1
+    while i:
+        i, rem = divmod(i - 1, 26)
+        s = chr(65 + rem) + s
+    return s
 
 
 def fit_history(path: str | Path, method: str = "volume-on-price", level: float = 0.95,

@@ -18,16 +18,32 @@ import numpy as np
 from models.data import MixData
 
 from planner.errors import Problem, ScenarioError
+from planner.scenario.names import character_problem, did_you_mean, how_alike, name_key
 from planner.scenario.schema import Scenario
-from planner.scenario.names import did_you_mean
+from planner.scenario.uncertain import correlation_problems
 
 _SOURCE = "scenario (changed after validation? check it with planner.validate_scenario)"
 
 
 def check_names(s: Scenario) -> None:
-    """Raise ScenarioError if usage names an undefined resource or names repeat."""
+    """Raise ScenarioError if usage names an undefined resource, or names repeat or break the name rule.
+
+    The rule is the validator's (planner.scenario.names): no control or invisible
+    characters, and names in one section differ by more than case, spacing or Unicode form.
+    """
     problems = []
-    for section, items in (("products", s.products), ("resources", s.resources)):
+    for section, items in (("products", s.products), ("resources", s.resources), ("options", s.options)):
+        first: dict[str, str] = {}
+        for k, x in enumerate(items):
+            bad = character_problem(x.name)
+            if bad is not None:
+                problems.append(Problem(f"{section}[{k + 1}].name", *bad))
+                continue
+            seen = first.setdefault(name_key(x.name), x.name)
+            if seen != x.name:
+                problems.append(Problem(f"{section}[{x.name}]", f"differs from {section}[{seen}] only in "
+                                        f"{how_alike(seen, x.name)}", "names must differ by more than case, "
+                                        "spacing or how accents are encoded: rename one"))
         for name, count in Counter(x.name for x in items).items():
             if count > 1:
                 problems.append(Problem(f"{section}[{name}]", f"name used {count} times", "names must be unique"))
@@ -37,6 +53,16 @@ def check_names(s: Scenario) -> None:
             if res not in defined:
                 problems.append(Problem(f"products[{p.name}].usage.{res}", "names a resource that is not defined",
                                         did_you_mean(res, defined) or "add it under resources or fix the name"))
+    if problems:
+        raise ScenarioError(problems, _SOURCE)
+
+
+def check_correlations(s: Scenario) -> None:
+    """Raise ScenarioError if the scenario's correlations cannot hold together (matrix not positive semi-definite).
+
+    The validator refuses such a scenario already; this re-check is for one changed in code.
+    """
+    problems = correlation_problems([(c.products[0], c.products[1], c.rho) for c in s.correlations])
     if problems:
         raise ScenarioError(problems, _SOURCE)
 

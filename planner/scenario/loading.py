@@ -8,6 +8,7 @@ the file into the same plain dict, so every form meets the same validator.
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 from typing import Any, Callable
 
@@ -15,6 +16,8 @@ import yaml
 
 from planner.errors import Problem, ScenarioError
 from planner.scenario.fastyaml import fast_read
+from planner.scenario.names import character_kind
+from planner.scenario.numbers import PLAIN, CommaSplit, Spelled
 from planner.scenario.schema import Scenario
 from planner.scenario.validate import validate_scenario
 
@@ -27,14 +30,75 @@ MAX_NODES = 20_000_000
 _Base = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
 
 
+_INT_TAG, _FLOAT_TAG, _NULL_TAG = "tag:yaml.org,2002:int", "tag:yaml.org,2002:float", "tag:yaml.org,2002:null"
+_COMMA_TAG = "tag:planner,2026:comma-split"  # a number split by commas inside { }, joined again by the loader
+_PIECE = re.compile(r"[-+]?[0-9][0-9_.]*")
+_NOT_FINITE = re.compile(r"[-+]?\.(?:inf|Inf|INF)|\.(?:nan|NaN|NAN)")
+
+
+def _mark(node: Any) -> tuple[int, int]:
+    return node.start_mark.line + 1, node.start_mark.column + 1
+
+
+def _comma_piece(key: Any, value: Any) -> bool:
+    """Whether a flow-mapping entry is the tail of a number split at a comma: a plain number key with no value."""
+    return (isinstance(key, yaml.ScalarNode) and not key.style and key.tag in (_INT_TAG, _FLOAT_TAG)
+            and _PIECE.fullmatch(key.value) is not None and isinstance(value, yaml.ScalarNode)
+            and value.tag == _NULL_TAG and value.value == "")
+
+
+def _join_comma_pieces(pairs: list[tuple[Any, Any]]) -> list[tuple[Any, Any]]:
+    """``{capacity: 4,160}`` parses as {capacity: 4, 160: null}: join such tails back onto the number before them."""
+    out: list[tuple[Any, Any]] = []
+    i = 0
+    while i < len(pairs):
+        key, value = pairs[i]
+        j = i + 1
+        if (isinstance(value, yaml.ScalarNode) and not value.style and value.tag in (_INT_TAG, _FLOAT_TAG)
+                and _PIECE.fullmatch(value.value)):
+            while j < len(pairs) and _comma_piece(*pairs[j]):
+                j += 1
+        if j > i + 1:
+            text = ",".join([value.value] + [k.value for k, _ in pairs[i + 1:j]])
+            value = yaml.ScalarNode(_COMMA_TAG, text, value.start_mark, pairs[j - 1][0].end_mark)
+        out.append((key, value))
+        i = j
+    return out
+
+
 class _Loader(_Base):  # type: ignore[misc, valid-type]
-    """The safe loader, noting keys given twice in one mapping (PyYAML silently keeps the last)."""
+    """The safe loader, noting keys given twice in one mapping (PyYAML silently keeps the last).
+
+    It also keeps what was written where the number rule (planner.scenario.numbers)
+    and YAML 1.1 part ways: a plain scalar YAML types as a number but written
+    otherwise than in plain decimal (``0400``, ``6:40``, ``0x190``, ``4_00``)
+    becomes a :class:`Spelled` value, and a number split by a comma inside
+    ``{ }`` a :class:`CommaSplit`; the validator reports each with its line.
+    """
 
     def __init__(self, stream: Any) -> None:
         super().__init__(stream)
         self.duplicates: list[Problem] = []
 
+    def construct_object(self, node: Any, deep: bool = False) -> Any:
+        """PyYAML's, with a located error for a value its constructors fail on (``2026-02-30``, ``!!timestamp x``)."""
+        try:
+            return super().construct_object(node, deep=deep)
+        except yaml.YAMLError:
+            raise
+        except (ValueError, TypeError, AttributeError, KeyError, IndexError, OverflowError):
+            kind = {"timestamp": "a date", "set": "a set", "binary": "binary data", "bool": "true or false",
+                    "omap": "an ordered mapping", "pairs": "a list of pairs"}.get(str(node.tag).rsplit(":", 1)[-1],
+                                                                                  "its type")
+            shown = node.value if isinstance(node, yaml.ScalarNode) else "this value"
+            raise yaml.constructor.ConstructorError(None, None, f"{shown!r} cannot be read as {kind}",
+                                                    node.start_mark) from None
+
     def construct_mapping(self, node: Any, deep: bool = False) -> Any:
+        if not isinstance(node, yaml.MappingNode):
+            return super().construct_mapping(node, deep=deep)  # PyYAML's own error: expected a mapping
+        if node.flow_style and len(node.value) > 1:
+            node.value = _join_comma_pieces(node.value)
         seen: dict[Any, int] = {}
         for key_node, _ in node.value:
             if not isinstance(key_node, yaml.ScalarNode) or key_node.tag == "tag:yaml.org,2002:merge":
@@ -54,10 +118,44 @@ class _Loader(_Base):  # type: ignore[misc, valid-type]
                     "keep one: otherwise only the last would count"))
         return super().construct_mapping(node, deep=deep)
 
+    def construct_spelled_int(self, node: Any) -> Any:
+        try:
+            value = self.construct_yaml_int(node)
+        except (ValueError, IndexError):  # matched as a number, unreadable: 0x_, 0b_, !!int abc, !!int ""
+            return Spelled(node.value, None, *_mark(node))
+        return value if PLAIN.fullmatch(node.value) else Spelled(node.value, value, *_mark(node))
+
+    def construct_spelled_float(self, node: Any) -> Any:
+        try:
+            value = self.construct_yaml_float(node)
+        except (ValueError, IndexError):
+            return Spelled(node.value, None, *_mark(node))
+        if PLAIN.fullmatch(node.value) or _NOT_FINITE.fullmatch(node.value):
+            return value  # .inf and .nan: refused as not finite, by the schema
+        return Spelled(node.value, value, *_mark(node))
+
+    def construct_comma_split(self, node: Any) -> Any:
+        return CommaSplit(node.value, *_mark(node))
+
+
+_Loader.add_constructor(_INT_TAG, _Loader.construct_spelled_int)
+_Loader.add_constructor(_FLOAT_TAG, _Loader.construct_spelled_float)
+_Loader.add_constructor(_COMMA_TAG, _Loader.construct_comma_split)
+
 
 def _yaml_problem(e: yaml.YAMLError, data: bytes) -> Problem:
     """A readable problem for a YAML syntax or encoding error, with line and column."""
     if isinstance(e, yaml.reader.ReaderError):
+        ch = e.character if isinstance(e.character, str) else chr(e.character) if isinstance(e.character, int) else ""
+        try:
+            text = data.decode("utf-8")
+        except UnicodeDecodeError:
+            text = ""
+        if ch and ch in text:  # valid UTF-8 (checked first), so a character YAML does not allow in a file
+            at = text.index(ch)
+            line, column = text.count("\n", 0, at) + 1, at - (text.rfind("\n", 0, at) + 1) + 1
+            return Problem(f"line {line}, column {column}", f"contains {character_kind(ch)} U+{ord(ch):04X}",
+                           "remove it: a scenario file holds printable text only")
         pos = int(getattr(e, "position", 0) or 0)
         line = data[:pos].count(b"\n") + 1
         byte = data[pos:pos + 1].hex() if pos < len(data) else "?"
@@ -74,6 +172,8 @@ def _yaml_problem(e: yaml.YAMLError, data: bytes) -> Problem:
         fix = "remove the '!!' tag: scenario files hold plain values only"
     elif "tab" in what:
         fix = "indent with spaces, not tabs"
+    elif "cannot be read as" in what:
+        fix = "quote it if it is text, or write it in plain form"
     elif "mapping values are not allowed" in what:
         fix = "put a space after each colon, and quote text that contains ': '"
     else:
@@ -167,6 +267,18 @@ def _read_pyyaml(data: bytes, path: Path) -> tuple[Any, list[Problem]]:
     finally:
         loader.dispose()
     return raw, loader.duplicates
+
+
+def parse_yaml(text: str | bytes) -> Any:
+    """YAML text as the planner reads it (PyYAML's safe loader, numbers spelled otherwise kept as written).
+
+    No fast path and no checks: the reference the fast reader is held to (tests/test_fastyaml.py).
+    """
+    loader = _Loader(text)
+    try:
+        return loader.get_single_data()
+    finally:
+        loader.dispose()
 
 
 def read_yaml(path: Path) -> Any:

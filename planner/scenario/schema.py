@@ -14,41 +14,71 @@ default, ``period`` names it).
 
 from __future__ import annotations
 
-import math
 from typing import Annotated, Literal
 
 from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, Field
 
-#: Largest size of any number in a scenario; beyond it, amounts lose their cents in float arithmetic.
-MAX_MAGNITUDE = 1e15
-#: Smallest size of a number other than 0; below it, solver tolerances swamp it.
-MIN_MAGNITUDE = 1e-12
+from pydantic_core import PydanticCustomError
+
+from planner.scenario.numbers import MAX_MAGNITUDE, MIN_MAGNITUDE, Unusable, read_number, size_problem
+
+__all__ = ["MAX_MAGNITUDE", "MIN_MAGNITUDE"]
 
 
 def _finite(x: float) -> float:
-    if not math.isfinite(x):
-        raise ValueError("must be a finite number")
-    if abs(x) > MAX_MAGNITUDE:
-        raise ValueError(f"is too large (more than {MAX_MAGNITUDE:.0e})")
-    if 0 < abs(x) < MIN_MAGNITUDE:
-        raise ValueError(f"is too small (below {MIN_MAGNITUDE:.0e} but not 0)")
+    why = size_problem(x)
+    if why:
+        raise ValueError(why)
     return x
 
 
-def _no_bool(x: object) -> object:
+def _as_number(x: object) -> object:
+    """The number rule (:mod:`planner.scenario.numbers`) before pydantic sees the value.
+
+    Numbers pass; plain decimal text is read; anything else is refused here, so
+    pydantic never parses text by rules of its own (``"1_000"``, ``"infinity"``).
+    """
     if isinstance(x, bool):  # pydantic would read true as 1.0
         raise ValueError("must be a number, not true/false")
-    return x
+    if isinstance(x, (int, float)):
+        return x
+    if isinstance(x, Unusable):  # reported by the validator where it stands, with its line
+        raise PydanticCustomError("unusable", "cannot be used as written")
+    value, message, fix = read_number(x)
+    if value is not None:
+        return value
+    if isinstance(x, str) and message.startswith(("must be a plain decimal", "must be a finite")):
+        raise PydanticCustomError("number_rule", "{message}", {"message": message, "fix": fix})
+    if isinstance(x, str):  # explained by the validator, with the units stated for this amount
+        raise PydanticCustomError("float_parsing", "must be a number")
+    return x  # pydantic's own error: empty, true/false, a list ...
 
 
-Number = Annotated[float, BeforeValidator(_no_bool), AfterValidator(_finite)]
-NonNegative = Annotated[float, BeforeValidator(_no_bool), AfterValidator(_finite), Field(ge=0)]
-Positive = Annotated[float, BeforeValidator(_no_bool), AfterValidator(_finite), Field(gt=0)]
+def _as_count(x: object) -> object:
+    value = _as_number(x)
+    if isinstance(value, float):
+        why = size_problem(value)
+        if why:
+            raise ValueError(why)
+        if not value.is_integer():
+            raise ValueError("must be a whole number")
+        return int(value)
+    return value
+
+
+Number = Annotated[float, BeforeValidator(_as_number), AfterValidator(_finite)]
+NonNegative = Annotated[float, BeforeValidator(_as_number), AfterValidator(_finite), Field(ge=0)]
+Positive = Annotated[float, BeforeValidator(_as_number), AfterValidator(_finite), Field(gt=0)]
+Fraction = Annotated[float, BeforeValidator(_as_number), AfterValidator(_finite), Field(ge=-1.0, le=1.0)]
+"""A number from -1 to 1 (a correlation)."""
+Count = Annotated[int, BeforeValidator(_as_count), Field(ge=0, le=int(MAX_MAGNITUDE))]
+"""A whole number >= 0 (a count of observations)."""
 Name = Annotated[str, Field(min_length=1, max_length=200)]
 
 
 class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, str_strip_whitespace=True)
+    # use_attribute_docstrings: each field's docstring is its description (the workbook's notes read it)
+    model_config = ConfigDict(extra="forbid", frozen=True, str_strip_whitespace=True, use_attribute_docstrings=True)
 
 
 class DemandFit(_Strict):
@@ -63,7 +93,7 @@ class DemandFit(_Strict):
     """Standard error of the fitted slope (currency/unit²)."""
     covariance: Number = 0.0
     """Covariance of the intercept and slope estimates (currency²/unit³)."""
-    n: int = Field(ge=0, default=0)
+    n: Count = 0
     """Number of observations."""
     r2: Number | None = None
     """Coefficient of determination of the fit (0..1)."""
@@ -161,7 +191,57 @@ class Correlation(_Strict):
     """Correlation between two products' demand (their intercepts' draws), -1..1."""
 
     products: tuple[Name, Name]
-    rho: Annotated[float, Field(ge=-1, le=1)]
+    rho: Fraction
+
+
+#: The numbers a variant's change may address, by what it names (the same product/resource + field
+#: addressing as ``uncertainty``; ``option`` and ``plant`` besides).
+CHANGE_FIELDS: dict[str, tuple[str, ...]] = {
+    "product": ("price_intercept", "price_slope", "unit_cost", "fixed_cost", "max_volume", "min_volume", "min_run"),
+    "resource": ("capacity",),
+    "option": ("taken",),
+    "plant": ("plant_fixed_cost",),
+}
+
+
+class Change(_Strict):
+    """One change of a variant: one number of a product, a resource, an option or the plant.
+
+    Exactly one target: ``product`` (field price_intercept, price_slope, unit_cost, fixed_cost,
+    max_volume, min_volume or min_run), ``resource`` (field capacity), ``option`` (field taken: the
+    share of the option taken, 0 to 1, an all-or-nothing option 0 or 1; its amounts times the share
+    are added to the capacities and its cost times the share to the plant-wide fixed cost) or
+    ``plant: true`` (field plant_fixed_cost).  Exactly one of ``set`` (the new value), ``add`` (added
+    to the value, in its unit; negative lowers it) or ``scale`` (the value times this factor).
+    """
+
+    product: Name | None = None
+    """Product whose number changes (a name under products)."""
+    resource: Name | None = None
+    """Resource whose capacity changes (a name under resources)."""
+    option: Name | None = None
+    """Capacity option taken (a name under options): field taken."""
+    plant: bool | None = None
+    """true for the plant-wide number (field plant_fixed_cost)."""
+    field: Literal["price_intercept", "price_slope", "unit_cost", "fixed_cost", "max_volume", "min_volume",
+                   "min_run", "capacity", "taken", "plant_fixed_cost"]
+    """Which number changes (in the unit of that number)."""
+    set: Number | None = None
+    """The new value (in the number's own unit)."""
+    add: Number | None = None
+    """Amount added to the value (in its unit; negative lowers it)."""
+    scale: NonNegative | None = None
+    """Factor the value is multiplied by (0.95: 5 % less)."""
+
+
+class Variant(_Strict):
+    """A named what-if: the scenario with a few numbers changed (planned beside it by ``planner compare``)."""
+
+    name: Name
+    """Unique name of the variant, shown in the comparison."""
+    description: str = ""
+    changes: list[Change] = Field(min_length=1)
+    """The changes, applied in order to the scenario as written."""
 
 
 class Scenario(_Strict):
@@ -178,6 +258,7 @@ class Scenario(_Strict):
     options: list[Option] = Field(default_factory=list)
     uncertainty: list[Uncertainty] = Field(default_factory=list)
     correlations: list[Correlation] = Field(default_factory=list)
+    variants: list[Variant] = Field(default_factory=list)
 
     def product(self, name: str) -> Product:
         """The product called ``name`` (KeyError if none)."""
@@ -191,4 +272,11 @@ class Scenario(_Strict):
         for r in self.resources:
             if r.name == name:
                 return r
+        raise KeyError(name)
+
+    def variant(self, name: str) -> Variant:
+        """The variant called ``name`` (KeyError if none)."""
+        for v in self.variants:
+            if v.name == name:
+                return v
         raise KeyError(name)

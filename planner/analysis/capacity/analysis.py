@@ -7,7 +7,7 @@ import time
 import numpy as np
 
 from planner.errors import PlannerError
-from planner.engine import Engine
+from planner.api import engine_for
 from planner.output.plan import Plan
 from planner.scenario.arrays import mix_data
 from planner.scenario.schema import Scenario
@@ -31,29 +31,40 @@ def plan_slate(p: Plan, can_stop: np.ndarray) -> np.ndarray:
 
 
 def add_capacity_analysis(p: Plan, s: Scenario, choose: bool = False, rel_gap: float = 1e-7,
-                          budget: float | None = None) -> Plan:
+                          budget: float | None = None, deadline: float | None = None) -> Plan:
     """Fill each resource's shadow-price range and the options' values (and the joint pick) in ``p``.
 
     Ranges: ``shadow_price_range`` [low, high] (None for no end), ``shadow_price_slope``
     and the reasons; ``p.extras['options']`` one entry per option; with ``choose``,
     ``p.extras['option_pick']``.  ``budget``: seconds for re-checking the range ends
     for better slates (None: no limit); ends left unchecked are flagged and warned of.
-    Returns ``p``.
+    ``deadline`` (a ``time.perf_counter()`` value, from a command's --time-limit): the end of
+    everything; what it leaves undone is left out and warned of.  Returns ``p``.
     """
+    if deadline is not None and p.status != "optimal":
+        p.warnings.append("capacity analysis not done: the plan stopped at the time limit, so ranges and option "
+                          "values would describe a plan that is not certified")
+        return p
     try:
-        return _analyse(p, s, choose, rel_gap, budget)
+        return _analyse(p, s, choose, rel_gap, budget, deadline)
+    except TimeoutError:
+        p.warnings.append("capacity analysis not finished within the time limit: what it could not do is left out")
+        return p
     except PlannerError as e:  # the plan itself stands; say what is missing and why
         p.warnings.append(f"capacity analysis not done: {e}")
         return p
 
 
-def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float | None) -> Plan:
+def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float | None,
+             hard: float | None) -> Plan:
     d = mix_data(s)
-    engine = Engine(d, units={r.name: r.unit for r in s.resources})
+    engine = engine_for(s, d)
     slate = plan_slate(p, d.can_stop)
     qp = engine.slate(slate)
     duals = qp.duals if qp.status == "optimal" else np.array([r.shadow_price for r in p.resources])
     deadline = None if budget is None else time.perf_counter() + budget
+    if hard is not None:
+        deadline = hard if deadline is None else min(deadline, hard)
     ranges = resource_ranges(d, slate, rel_gap=rel_gap, deadline=deadline, engine=engine)
     for rp, rg in zip(p.resources, ranges):
         rp.shadow_price_range = [rg.low, rg.high]
@@ -63,11 +74,17 @@ def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float |
     unchecked = [rg.resource for rg in ranges if not rg.slates_checked]
     if unchecked:
         p.warnings.append(f"shadow-price ranges of {len(unchecked)} of {len(ranges)} resources were not fully "
-                          f"re-checked for a better slate within the {budget:.2g} s budget ({', '.join(unchecked[:5])}"
+                          f"re-checked for a better slate within the {_budget_text(budget, hard)} ({', '.join(unchecked[:5])}"
                           f"{', …' if len(unchecked) > 5 else ''}): their ranges hold for this slate; "
                           "run planner plan --capacity to check them all")
-    base, values = value_options(s, d, slate, duals, rel_gap, engine=engine)
+    base, values = value_options(s, d, slate, duals, rel_gap, engine=engine, deadline=hard)
     p.extras["options"] = [v.to_dict() for v in values]
     if choose and s.options:
-        p.extras["option_pick"] = choose_options(s, d, base, slate, rel_gap)
+        p.extras["option_pick"] = choose_options(s, d, base, slate, rel_gap, deadline=hard)
     return p
+
+
+def _budget_text(budget: float | None, hard: float | None) -> str:
+    if budget is None:
+        return "time limit"
+    return f"{budget:.2g} s budget" + (" (or the time limit)" if hard is not None else "")

@@ -62,23 +62,25 @@ class OptionValue:
 
 
 def value_options(s: Scenario, d: MixData, base_slate: np.ndarray, duals: np.ndarray,
-                  rel_gap: float = 1e-7, engine: Engine | None = None) -> tuple[float, list[OptionValue]]:
+                  rel_gap: float = 1e-7, engine: Engine | None = None,
+                  deadline: float | None = None) -> tuple[float, list[OptionValue]]:
     """(base profit re-solved to ``rel_gap``, each option's value), profits with plant-wide cost.
 
-    ``engine``: the scenario's engine on ``d`` (built if not given).
+    ``engine``: the scenario's engine on ``d`` (built if not given); ``deadline``: a
+    ``time.perf_counter()`` value past which TimeoutError is raised.
     """
     if not s.options:
         return float("nan"), []
     dd = with_options(d, s)
-    engine = engine or Engine(d)
-    offered = Engine(dd)
-    base = resolve(engine, d.capacity, rel_gap, known=[base_slate])
+    engine = engine or Engine(d, offset=s.plant_fixed_cost)
+    offered = Engine(dd, offset=s.plant_fixed_cost)
+    base = resolve(engine, d.capacity, rel_gap, known=[base_slate], deadline=deadline)
     base_profit = base.objective - s.plant_fixed_cost
     out = []
     for k, o in enumerate(s.options):
         amount = dd.opt_amount[k]
         total = float(amount.sum())
-        full = resolve(engine, d.capacity + amount, rel_gap, known=[base.running])
+        full = resolve(engine, d.capacity + amount, rel_gap, known=[base.running], deadline=deadline)
         gain_full = full.objective - base.objective
         estimate = float(duals @ amount)
         if o.adds is not None:
@@ -86,7 +88,7 @@ def value_options(s: Scenario, d: MixData, base_slate: np.ndarray, duals: np.nda
             cost = float(o.cost or 0.0)
         else:
             sol = _certified(offered.solve(rel_gap=rel_gap, options=np.arange(dd.n_options) == k,
-                                           known=[base.running]))
+                                           known=[base.running], deadline=deadline))
             used = float(sol.option_scale[0]) if sol.option_scale.size else 0.0
             cost = used * option_full_cost(o)
             gain = sol.objective + cost - base.objective
@@ -105,10 +107,11 @@ def value_options(s: Scenario, d: MixData, base_slate: np.ndarray, duals: np.nda
 
 
 def choose_options(s: Scenario, d: MixData, base_profit: float, base_slate: np.ndarray,
-                   rel_gap: float = 1e-7) -> dict[str, Any]:
+                   rel_gap: float = 1e-7, deadline: float | None = None) -> dict[str, Any]:
     """The best set of options chosen jointly (binary shifts, continuous overtime and material)."""
     dd = with_options(d, s)
-    sol = _certified(Engine(dd).solve(rel_gap=rel_gap, known=[np.asarray(base_slate, dtype=bool)]))
+    sol = _certified(Engine(dd, offset=s.plant_fixed_cost).solve(rel_gap=rel_gap, known=[np.asarray(base_slate, dtype=bool)],
+                                      deadline=deadline))
     picks = []
     for k, o in enumerate(s.options):
         scale = float(sol.option_scale[k])
@@ -126,9 +129,11 @@ def choose_options(s: Scenario, d: MixData, base_profit: float, base_slate: np.n
 
 
 def _certified(sol):
-    """The solution, or SolverError where the engine could not certify it."""
+    """The solution; TimeoutError where a deadline stopped it, SolverError where it could not be certified."""
     from planner.errors import SolverError
 
+    if sol.status == "time_limit":
+        raise TimeoutError("the time limit is spent")
     if sol.status != "optimal":
         raise SolverError("valuing the capacity options could not certify a plan: " + "; ".join(sol.messages))
     return sol

@@ -90,7 +90,7 @@ class _Sweeper:
         self.u = np.eye(len(d.resources))[r]
         self.H0 = float(d.capacity[r])
         self.rel_gap = rel_gap
-        self.engine = Engine(d)
+        self.engine = Engine(d, offset=plant_fixed)
         self.resolves = 0
         self.paths: dict[bytes, SlatePath] = {}
         self.last: np.ndarray | None = None  # the slate best() returned last

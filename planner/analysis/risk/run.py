@@ -48,14 +48,15 @@ class ClusterError(PlannerError):
 
 
 def solve_chunk(base: MixData, start: np.ndarray, points: np.ndarray, rel_gap: float,
-                arrays: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
+                arrays: dict[str, np.ndarray], plant_fixed_cost: float = 0.0) -> dict[str, np.ndarray]:
     """Re-optimise the samples of one chunk (runs on a worker); profit excludes the plant-wide cost.
 
     ``start``: the plan's slate, solved first in every sample; ``points``: the plan's volumes
-    (kept for the call's shape; the engine needs no cut points from outside).
+    (kept for the call's shape; the engine needs no cut points from outside); ``plant_fixed_cost``:
+    the certificate is that of the plan's profit, after it.
     """
     n_s = len(arrays["a"])
-    engine = Engine(base)
+    engine = Engine(base, offset=plant_fixed_cost)
     out = {"objective": np.full(n_s, np.nan), "bound": np.full(n_s, np.nan),
            "status": np.zeros(n_s, dtype=np.int8), "running": np.zeros((n_s, base.n), dtype=bool),
            "volume": np.zeros((n_s, base.n)), "duals": np.full((n_s, len(base.resources)), np.nan),
@@ -180,8 +181,8 @@ def run_risk(scenario: Scenario | str | Path, samples: int = 1000, seed: int = 0
     bounds = [(lo, min(lo + chunk, samples)) for lo in range(0, samples, chunk)]
     pieces = [{k: v[lo:hi] for k, v in arrays.items()} for lo, hi in bounds]
     t1 = time.perf_counter()
-    results, n_workers, where = _run_chunks(base, start, points, rel_gap, pieces, scheduler, workers,
-                                            client, progress)
+    results, n_workers, where = _run_chunks(base, start, points, rel_gap, scenario.plant_fixed_cost, pieces,
+                                            scheduler, workers, client, progress)
     merged = {k: np.concatenate([r[k] for r in results]) if results else np.zeros(0)
               for k in ("objective", "status", "running", "duals", "fallback")}
     if not results:
@@ -204,7 +205,7 @@ def run_risk(scenario: Scenario | str | Path, samples: int = 1000, seed: int = 0
                       np.mean((arrays["a"] - base.a) / np.maximum(base.a, 1e-9), axis=1))
 
 
-def _run_chunks(base, start, points, rel_gap, pieces, scheduler, workers, client, progress):
+def _run_chunks(base, start, points, rel_gap, plant, pieces, scheduler, workers, client, progress):
     """Solve every chunk; returns (results in chunk order, number of workers, where it ran)."""
     total = len(pieces)
     if progress:
@@ -212,7 +213,7 @@ def _run_chunks(base, start, points, rel_gap, pieces, scheduler, workers, client
     if workers == 0 and client is None and scheduler is None:
         results = []
         for i, piece in enumerate(pieces):
-            results.append(solve_chunk(base, start, points, rel_gap, piece))
+            results.append(solve_chunk(base, start, points, rel_gap, piece, plant))
             if progress:
                 progress(i + 1, total)
         return results, 1, "in-process"
@@ -237,7 +238,7 @@ def _run_chunks(base, start, points, rel_gap, pieces, scheduler, workers, client
         n_workers = len(client.scheduler_info().get("workers", {})) or 1
         where = scheduler or ("local cluster" if own_cluster else str(getattr(client, "scheduler", "client")))
         shared = client.scatter([base, start, points], broadcast=True)
-        futures = [client.submit(solve_chunk, *shared, rel_gap, piece, pure=False) for piece in pieces]
+        futures = [client.submit(solve_chunk, *shared, rel_gap, piece, plant, pure=False) for piece in pieces]
         order = {f.key: i for i, f in enumerate(futures)}
         results: list = [None] * total
         for done, fut in enumerate(as_completed(futures), start=1):

@@ -40,7 +40,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from planner.errors import Problem, ScenarioError
+from planner.scenario.guard import check_correlations
 from planner.scenario.schema import Scenario
 
 #: Fraction of the scenario's slope below which a drawn slope is truncated.
@@ -77,20 +77,13 @@ class Samples:
         return out
 
 
-def _phi(z: np.ndarray) -> np.ndarray:
-    """Standard normal CDF Φ(z) (elementwise, via math.erf)."""
-    erf = np.frompyfunc(math.erf, 1, 1)
-    return 0.5 * (1.0 + erf(np.asarray(z) / math.sqrt(2.0)).astype(float))
-
-
 def _triangular(u: np.ndarray, low: float, mode: float, high: float) -> np.ndarray:
-    """Inverse CDF of the triangular distribution (low ≤ mode ≤ high)."""
+    """Inverse CDF of the triangular distribution (low ≤ mode ≤ high), scipy.stats.triang."""
+    from scipy.stats import triang
+
     if high <= low:
         return np.full_like(u, low)
-    c = (mode - low) / (high - low)
-    left = low + np.sqrt(u * (high - low) * (mode - low))
-    right = high - np.sqrt((1 - u) * (high - low) * (high - mode))
-    return np.where(u < c, left, right)
+    return triang.ppf(u, (mode - low) / (high - low), loc=low, scale=high - low)
 
 
 def draw_samples(s: Scenario, n: int, seed: int) -> Samples:
@@ -103,6 +96,8 @@ def draw_samples(s: Scenario, n: int, seed: int) -> Samples:
     for e in entries:
         cols.append(col)
         col += 2 if e.distribution == "fitted" else 1
+    from scipy.stats import norm
+
     rng = np.random.Generator(np.random.PCG64(seed))
     z = rng.standard_normal((n, col)) if col else np.zeros((n, 0))
     z = _correlate(s, entries, cols, z)
@@ -118,9 +113,9 @@ def draw_samples(s: Scenario, n: int, seed: int) -> Samples:
         if e.distribution == "normal":
             x = (base if e.mean is None else e.mean) + e.sd * z[:, c]
         elif e.distribution == "triangular":
-            x = _triangular(_phi(z[:, c]), e.low, e.mode, e.high)
+            x = _triangular(norm.cdf(z[:, c]), e.low, e.mode, e.high)
         elif e.distribution == "uniform":
-            x = e.low + (e.high - e.low) * _phi(z[:, c])
+            x = e.low + (e.high - e.low) * norm.cdf(z[:, c])
         else:  # fitted: intercept and slope together
             fit = p.demand_fit
             se_a, se_b, cov = fit.intercept_se, fit.slope_se, fit.covariance
@@ -190,6 +185,7 @@ def _correlate(s: Scenario, entries: list, cols: list[int], z: np.ndarray) -> np
     """Apply the scenario's correlations to the intercepts' normal scores (Gaussian copula)."""
     if not s.correlations:
         return z
+    check_correlations(s)  # the validator's rule, once more for a Scenario changed in code
     where = {e.product: c for e, c in zip(entries, cols) if e.product is not None and e.field == "price_intercept"}
     names = sorted({n for c in s.correlations for n in c.products}, key=lambda n: where[n])
     pos = {n: i for i, n in enumerate(names)}
@@ -198,12 +194,6 @@ def _correlate(s: Scenario, entries: list, cols: list[int], z: np.ndarray) -> np
         i, j = pos[c.products[0]], pos[c.products[1]]
         R[i, j] = R[j, i] = c.rho
     w, V = np.linalg.eigh(R)  # R = V·diag(w)·Vᵀ; L = V·√w works for ρ = ±1 too, unlike Cholesky
-    if w.min() < -1e-10:
-        pairs = ", ".join(f"{c.products[0]}–{c.products[1]} {c.rho:g}" for c in s.correlations)
-        raise ScenarioError([Problem("correlations", f"the correlations ({pairs}) cannot hold together "
-                                     "(their matrix is not positive definite)",
-                                     "weaken some of them; three products cannot all be strongly "
-                                     "correlated with opposite signs")])
     L = V * np.sqrt(np.maximum(w, 0.0))
     idx = [where[n] for n in names]
     out = z.copy()

@@ -208,7 +208,7 @@ def mix_chart(plan: Plan) -> Chart:
                     for ax in (ax_v, ax_p):
                         ax.text(0.01, k, "shut down", transform=ax.get_yaxis_transform(), va="center",
                                 fontsize=8.5, color=C["muted"], style="italic")
-            ax_v.set_yticks(y, [wrap_label(p.name + (" (must run)" if p.must_run else "")) for p in prods])
+            ax_v.set_yticks(y, [wrap_label(p.name + ((" (committed)" if p.forced == "min_volume" else " (must run)") if p.must_run else "")) for p in prods])
             ax_v.set_ylim(-0.6, len(prods) - 0.4)
             ax_v.set_xlim(0, vmax * 1.28)
             ax_p.axvline(0, color=C["muted"], lw=0.9)

@@ -91,7 +91,8 @@ def _summary(ctx: ReportContext) -> str:
                       "costs here, or the capacity they would use earns more in other products.")
     if binding:
         r = binding[0]
-        points.append(f"The bottleneck is <b>{escape(r.name)}</b>: one more {escape(per_unit(r.unit))} is worth "
+        points.append(f"The bottleneck is <b>{escape(r.name)}</b> (the binding limit whose extra 1 % is worth most, "
+                      f"about {escape(money(r.value_of_one_percent, c))}): one more {escape(per_unit(r.unit))} is worth "
                       f"{escape(money(r.shadow_price, c, 2))} of profit, for a small change. Larger additions "
                       "(a shift) are valued by re-solving, below.")
     if paying is not None:
@@ -117,7 +118,8 @@ def _products(ctx: ReportContext) -> str:
             ("variable cost", True), ("contribution", True), ("fixed cost", True), ("profit", True)]
     rows = []
     for x in p.products:
-        tag = ('<span class="tag on">must run</span>' if x.must_run else '<span class="tag on">runs</span>') \
+        tag = (('<span class="tag on">committed</span>' if x.forced == "min_volume" else
+                '<span class="tag on">must run</span>') if x.must_run else '<span class="tag on">runs</span>') \
             if x.running else '<span class="tag off">shut down</span>'
         rows.append(("on" if x.running else "off", [
             escape(x.name), tag, escape(f"{num(x.volume)} {x.unit}"),

@@ -2,7 +2,7 @@
 along an axis.  Works on a figure whose layout is final (:func:`freeze_layout`), in display pixels.
 
 - :func:`place_labels`: each label tries positions around its point, nearest first (right-above,
-  right-below, left-above, ... then further out with a thin leader line back to the point), and
+  right-below, left-above, ... then further out), joined to its point by a thin leader line, and
   takes the first that stays inside the axes and clear of every label, marker and text already there.
 - :func:`spread`: positions along a line at least ``gap`` apart, each as near its wish as it can be,
   within bounds (used for the sweep chart's numbered change points).
@@ -90,8 +90,8 @@ def place_labels(ax, renderer, labels: list[Label], obstacles: list[Bbox] | None
             if best[0] == 0:
                 break
         _, off, ha, va, ring, box = best
-        arrow = None if ring == _RINGS[0] else {"arrowstyle": "-", "color": C["muted"], "lw": 0.7,
-                                                 "shrinkA": 0, "shrinkB": lb.size / 2 + 1}
+        # every label has its leader line: beside markers a few points apart, position alone can mislead
+        arrow = {"arrowstyle": "-", "color": C["muted"], "lw": 0.7, "shrinkA": 0, "shrinkB": lb.size / 2 + 1}
         ann = ax.annotate(lb.text, (lb.x, lb.y), xytext=off, textcoords="offset points", ha=ha, va=va,
                           fontsize=fontsize, color=C["ink"], zorder=6, bbox=box_style, arrowprops=arrow)
         ann.set_gid(f"label-{lb.gid}")

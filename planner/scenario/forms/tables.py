@@ -15,6 +15,9 @@ Tables (one sheet, or one CSV file, each; row 1 is the heading)::
     demand_fit      product, intercept_se, slope_se, covariance, n, r2, price_min, price_max, source
     uncertainty     product, resource, field, distribution, sd, mean, low, mode, high
     correlations    product_1, product_2, rho
+    variants        name, description
+    variant_changes variant, product, resource, option, plant, field, set, add, scale   (one row per change,
+                    in order)
 
 Any other column becomes a key of its entry, and any other table a list
 section of its own, so nothing is dropped (the validator then names what it
@@ -34,6 +37,7 @@ from pathlib import Path
 from typing import Any
 
 from planner.errors import Problem
+from planner.scenario.numbers import PLAIN, Unusable
 
 SCALARS = ["name", "currency", "period", "plant_fixed_cost", "description"]
 COLUMNS = {
@@ -49,13 +53,16 @@ COLUMNS = {
                    "source"],
     "uncertainty": ["product", "resource", "field", "distribution", "sd", "mean", "low", "mode", "high"],
     "correlations": ["product_1", "product_2", "rho"],
+    "variants": ["name", "description"],
+    "variant_changes": ["variant", "product", "resource", "option", "plant", "field", "set", "add", "scale"],
 }
 ORDER = ["scenario", "products", "usage", "resources", "options", "option_amounts", "demand", "demand_fit",
-         "uncertainty", "correlations"]
+         "uncertainty", "correlations", "variants", "variant_changes"]
 TEXT = {"key", "name", "product", "resource", "option", "unit", "description", "kind", "currency", "period",
-        "field", "distribution", "history", "history_product", "regress", "source", "product_1", "product_2"}
+        "field", "distribution", "history", "history_product", "regress", "source", "product_1", "product_2",
+        "variant"}
 POINT_COLS = ["price_1", "volume_1", "price_2", "volume_2"]
-_INT = re.compile(r"[+-]?\d+")
+_INT = re.compile(r"[-+]?(?:0|[1-9][0-9]*)")
 
 
 @dataclass
@@ -80,7 +87,12 @@ class ReadResult:
 # ---------------------------------------------------------------- cells
 
 def coerce(col: str, value: Any) -> Any:
-    """A cell as the validator should see it: text columns as text, numbers parsed from text; '' is None."""
+    """A cell as the validator should see it: text columns as text, numbers parsed from text; '' is None.
+
+    Text is read as a number only when it is written in plain decimal (the
+    number rule of :mod:`planner.scenario.numbers`); other text (``0400``,
+    ``1_000``, ``4,160``) stays text, for the validator to explain.
+    """
     if isinstance(value, str):
         value = value.strip()
         if value == "":
@@ -94,10 +106,8 @@ def coerce(col: str, value: Any) -> Any:
     if isinstance(value, str):
         if _INT.fullmatch(value):
             return int(value)
-        try:
+        if PLAIN.fullmatch(value):
             return float(value)
-        except ValueError:
-            pass
         if value.lower() in ("true", "false"):
             return value.lower() == "true"
     return value
@@ -117,14 +127,32 @@ def cell_text(value: Any) -> str:
 # ---------------------------------------------------------------- dict -> tables
 
 def _columns(entries: list[dict], known: list[str], skip: set[str] = frozenset()) -> list[str]:
+    if not entries:  # an empty section keeps its heading, so it reads back as an empty list
+        return [c for c in known if c not in skip]
     seen = [c for c in known if any(c in e for e in entries)]
     for e in entries:
         seen += [k for k in e if k not in seen and k not in skip and k not in known]
     return seen
 
 
+def _needs_json(col: str, value: Any) -> bool:
+    """Whether a cell cannot carry ``value`` exactly (nested, or text that :func:`coerce` would read otherwise)."""
+    if isinstance(value, (dict, list, tuple)):
+        return True
+    return isinstance(value, str) and coerce(col, value) != value
+
+
+def _as_cells(header: list[str], rows: list[list[Any]]) -> tuple[list[str], list[list[Any]]]:
+    """Columns holding a value a cell cannot carry exactly become ``:json`` columns."""
+    nested = {j for j, c in enumerate(header) if any(j < len(r) and _needs_json(c, r[j]) for r in rows)}
+    if not nested:
+        return header, rows
+    return ([f"{c}:json" if j in nested else c for j, c in enumerate(header)],
+            [[json.dumps(v) if j in nested and v is not None else v for j, v in enumerate(r)] for r in rows])
+
+
 def _rows(entries: list[dict], cols: list[str]) -> tuple[list[str], list[list[Any]]]:
-    nested = {c for c in cols if any(isinstance(e.get(c), (dict, list, tuple)) for e in entries)}
+    nested = {c for c in cols if any(c in e and _needs_json(c, e[c]) for e in entries)}
     header = [f"{c}:json" if c in nested else c for c in cols]
     rows = [[json.dumps(e[c]) if c in nested and c in e else e.get(c) for c in cols] for e in entries]
     return header, rows
@@ -135,22 +163,22 @@ def to_tables(raw: dict[str, Any], wide_usage: bool = False) -> dict[str, tuple[
     out: dict[str, tuple[list[str], list[list[Any]]]] = {}
     sections = {k: v for k, v in raw.items() if isinstance(v, list) and all(isinstance(x, dict) for x in v)
                 and k not in SCALARS}
-    scal = [[k if not isinstance(v, (dict, list)) else f"{k}:json",
-             json.dumps(v) if isinstance(v, (dict, list)) else v] for k, v in raw.items() if k not in sections]
+    scal = [[f"{k}:json" if _needs_json(k, v) else k, json.dumps(v) if _needs_json(k, v) else v]
+            for k, v in raw.items() if k not in sections]
     out["scenario"] = (["key", "value"], scal)
     products = sections.pop("products", [])
     cols = _columns(products, COLUMNS["products"], {"usage", "demand", "demand_fit"})
     out["products"] = _rows(products, cols)
     if any("usage" in p for p in products):
-        if wide_usage:
-            res: list[str] = []
-            for p in products:
-                res += [r for r in (p.get("usage") or {}) if r not in res]
+        res: list[str] = []
+        for p in products:
+            res += [r for r in (p.get("usage") or {}) if r not in res]
+        if wide_usage and not any(_needs_json("resource", r) or not isinstance(r, str) for r in res):
             out["usage"] = (["product"] + res, [[p.get("name")] + [(p.get("usage") or {}).get(r) for r in res]
                                                 for p in products if p.get("usage")])
         else:
-            out["usage"] = (COLUMNS["usage"], [[p.get("name"), r, a] for p in products
-                                               for r, a in (p.get("usage") or {}).items()])
+            out["usage"] = _as_cells(COLUMNS["usage"], [[p.get("name"), r, a] for p in products
+                                                         for r, a in (p.get("usage") or {}).items()])
     dem = []
     for p in products:
         if isinstance(p.get("demand"), dict):
@@ -174,14 +202,29 @@ def to_tables(raw: dict[str, Any], wide_usage: bool = False) -> dict[str, tuple[
         out["options"] = _rows(opts, _columns(opts, COLUMNS["options"], {"adds", "adds_up_to"}))
         amounts = [[o.get("name"), r, a if key == "adds" else None, a if key == "adds_up_to" else None]
                    for o in opts for key in ("adds", "adds_up_to") for r, a in (o.get(key) or {}).items()]
-        out["option_amounts"] = (COLUMNS["option_amounts"], amounts)
+        out["option_amounts"] = _as_cells(COLUMNS["option_amounts"], amounts)
     if "correlations" in sections:
         cor = [{"product_1": (c.get("products") or [None, None])[0], "product_2": (c.get("products") or [None, None])[1],
                 **{k: v for k, v in c.items() if k != "products"}} for c in sections.pop("correlations")]
         out["correlations"] = _rows(cor, _columns(cor, COLUMNS["correlations"]))
+    if "variants" in sections:
+        out.update(_variant_tables(sections.pop("variants")))
     for name, entries in sections.items():  # uncertainty and any list section the schema may gain
         out[name] = _rows(entries, _columns(entries, COLUMNS.get(name, [])))
     return out
+
+
+def _variant_tables(variants: list[dict]) -> dict[str, tuple[list[str], list[list[Any]]]]:
+    """Variants as two tables (variants; their changes one row each), or one with ``changes:json`` where rows
+    could not say exactly which variant a change is of (no changes, names that repeat)."""
+    names = [v.get("name").strip() if isinstance(v.get("name"), str) else None for v in variants]
+    if not (all(isinstance(v.get("changes"), list) and v["changes"] and all(isinstance(c, dict) and "variant" not in c
+                                                                           for c in v["changes"]) for v in variants)
+            and None not in names and len(set(names)) == len(names)):
+        return {"variants": _rows(variants, _columns(variants, COLUMNS["variants"]))}
+    rows = [{"variant": v["name"], **c} for v in variants for c in v["changes"]]
+    return {"variants": _rows(variants, _columns(variants, COLUMNS["variants"], {"changes"})),
+            "variant_changes": _rows(rows, _columns(rows, COLUMNS["variant_changes"]))}
 
 
 # ---------------------------------------------------------------- tables -> dict
@@ -280,12 +323,29 @@ def _letter(i: int) -> str:
     return s
 
 
+def same_tables(names: list[str]) -> list[list[str]]:
+    """Groups of table names that name one table (equal ignoring case and surrounding spaces)."""
+    groups: dict[str, list[str]] = {}
+    for n in names:
+        groups.setdefault(n.strip().casefold(), []).append(n)
+    return [g for g in groups.values() if len(g) > 1]
+
+
 def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_name: str,
                 base_dir: Path | None = None) -> ReadResult:
     """Build the scenario dict from tables, remembering where every value came from."""
     from planner.scenario.names import did_you_mean
 
-    # Known tables match whatever the case of their names ("Products" is products).
+    # Known tables match whatever the case of their names ("Products" is products); two that differ
+    # only in case would be one table, so neither is taken.
+    same = same_tables(list(tables))
+    if same:
+        from planner.errors import ScenarioError
+
+        raise ScenarioError([Problem(" and ".join(place(t) for t in names), "name the same table "
+                                     "(table names are compared ignoring case and surrounding spaces)",
+                                     "keep one: merge the rows into one and delete the other")
+                             for names in same])
     tables = {(k.lower() if k.lower() in ORDER else k): t for k, t in tables.items()}
     rd = _Reader(place)
     rd.names = {k: t.name for k, t in tables.items()}
@@ -293,6 +353,9 @@ def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_n
     if "scenario" in tables:
         for r, rec in rd.records(tables["scenario"], ["key", "value"]):
             k, v = rec.get("key"), rec.get("value")
+            if isinstance(k, Unusable):
+                rd.problems.append(Problem(rd.at("scenario", r, "key"), *k.problem(as_text=True)))
+                continue
             if not isinstance(k, str):
                 rd.problems.append(Problem(rd.at("scenario", r, "key"), "is empty", "name the setting"))
                 continue
@@ -324,8 +387,9 @@ def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_n
         key = name.strip() if isinstance(name, str) else name
         if key in names:
             return names[key]
-        hint = did_you_mean(str(name), list(names)) or f"add it to {place('products' if col != 'option' else 'options')} or fix the name"
-        what = "an option" if col == "option" else "a product"
+        section = {"option": "options", "variant": "variants"}.get(col, "products")
+        hint = did_you_mean(str(name), list(names)) or f"add it to {place(section)} or fix the name"
+        what = {"option": "an option", "variant": "a variant"}.get(col, "a product")
         rd.problems.append(Problem(rd.at(table, r, col), f"names {what} that is not defined: {name!r}", hint))
         return None
 
@@ -334,7 +398,7 @@ def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_n
 
     if "usage" in tables:
         t = tables["usage"]
-        heads = [str(h).strip() for h in t.header if h is not None and str(h).strip()]
+        heads = [str(h).strip().removesuffix(":json") for h in t.header if h is not None and str(h).strip()]
         long = set(heads) <= {"product", "resource", "amount"} and {"resource", "amount"} <= set(heads)
         recs = rd.records(t, ["product", "resource", "amount"] if long else ["product"])
         for r, rec in recs:
@@ -412,6 +476,22 @@ def from_tables(tables: dict[str, Table], place: Callable[[str], str], default_n
             cors.append(c)
         raw["correlations"] = cors
         rd.where["correlations"] = rd.at("correlations")
+    if "variants" in tables:
+        raw["variants"] = rd.entries(tables["variants"], "variants", "name", ["name"])
+        vnames = {v["name"].strip(): (i, v) for i, v in enumerate(raw["variants"]) if isinstance(v.get("name"), str)}
+        for r, rec in rd.records(tables["variant_changes"], ["variant", "field"]) if "variant_changes" in tables else []:
+            name = rec.pop("variant", None)
+            hit = owner("variant_changes", r, "variant", name, vnames) if name is not None else \
+                rd.problems.append(Problem(rd.at("variant_changes", r, "variant"), "is empty", "name the variant"))
+            if hit is not None:
+                changes = hit[1].setdefault("changes", [])
+                label = f"variants[{hit[1]['name'].strip()}].changes[{len(changes) + 1}]"
+                rd.where.setdefault(label, rd.at("variant_changes", r))
+                rd.where.update({f"{label}.{c}": rd.at("variant_changes", r, c) for c in rec})
+                changes.append(rec)
+    elif "variant_changes" in tables:
+        rd.problems.append(Problem(place("variants"), "is missing but variant_changes is given",
+                                   "add the variants table (name, description)"))
     for name, t in tables.items():
         if name not in ORDER or name == "uncertainty":
             raw[name] = rd.entries(t, name, "name", [])

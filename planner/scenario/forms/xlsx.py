@@ -7,15 +7,16 @@ template's instructions), which is ignored.
 
 from __future__ import annotations
 
-import ast
-import inspect
+import re
 import math
 from functools import lru_cache
 from pathlib import Path
 from typing import Any
 
 from planner.errors import Problem, ScenarioError
-from planner.files import write_atomic
+from planner.files import set_cell, write_atomic
+from planner.scenario.numbers import Formula
+from planner.scenario.schema import CHANGE_FIELDS
 from planner.scenario.forms.tables import COLUMNS, ORDER, ReadResult, Table, from_tables, to_tables
 
 IGNORED_SHEETS = {"about"}
@@ -47,9 +48,11 @@ NOTES = {
     ("correlations", "product_1"): "First product.",
     ("correlations", "product_2"): "Second product.",
     ("correlations", "rho"): "Correlation of their demand, -1 to 1.",
+    ("variant_changes", "variant"): "Variant name, as in sheet variants; one row per change, applied in order.",
 }
 _CLASSES = {"scenario": "Scenario", "products": "Product", "resources": "Resource", "options": "Option",
-            "demand_fit": "DemandFit", "uncertainty": "Uncertainty"}
+            "demand_fit": "DemandFit", "uncertainty": "Uncertainty", "variants": "Variant",
+            "variant_changes": "Change"}
 
 ABOUT = [
     "Scenario workbook for planner. Fill in the sheets, then: planner plan THIS.xlsx",
@@ -62,6 +65,8 @@ ABOUT = [
     "  or a sales-history CSV to fit (see: planner fit-demand HISTORY.csv).",
     "usage: long (product, resource, amount) or wide (product, then one column per resource).",
     "options: ways to buy capacity; their amounts in option_amounts.",
+    "variants: named what-ifs (planner compare); each change is a row of variant_changes: a product, resource,",
+    "  option or plant (true), a field, and one of set, add or scale.",
     "Sheets you do not need may stay empty or be deleted (products is required).",
     "Labour rules on shifts and overtime differ by jurisdiction; local law and company agreements govern.",
 ]
@@ -69,27 +74,67 @@ ABOUT = [
 
 @lru_cache(maxsize=1)
 def field_notes() -> dict[tuple[str, str], str]:
-    """Docstrings of the schema's fields, by (table, column), read from planner/schema.py."""
+    """The schema fields' docstrings (pydantic's field descriptions), by (table, column)."""
     from planner.scenario import schema
 
-    tree = ast.parse(inspect.getsource(schema))
-    by_class: dict[str, dict[str, str]] = {}
-    for node in tree.body:
-        if isinstance(node, ast.ClassDef):
-            docs: dict[str, str] = {}
-            body = node.body
-            for a, b in zip(body, body[1:]):
-                if (isinstance(a, ast.AnnAssign) and isinstance(a.target, ast.Name) and isinstance(b, ast.Expr)
-                        and isinstance(b.value, ast.Constant) and isinstance(b.value.value, str)):
-                    docs[a.target.id] = " ".join(b.value.value.split())
-            by_class[node.name] = docs
-    out = {(t, f): d for t, cls in _CLASSES.items() for f, d in by_class.get(cls, {}).items()}
+    out = {}
+    for table, cls in _CLASSES.items():
+        for name, info in getattr(schema, cls).model_fields.items():
+            if info.description:
+                out[(table, name)] = " ".join(info.description.split())
     out.update(NOTES)
     return out
 
 
+#: Sheets of the workbook ``planner report`` writes (planner.output.report.workbook) with the inputs as read:
+#: no scenario workbook has them, so any one marks a plan, not a scenario.
+REPORT_SHEETS = {"Input products", "Input usage", "Input resources", "Input options", "Input scenario"}
+
+
+def _is_report(wb) -> bool:
+    """Whether a workbook is a plan written by ``planner report`` (an input sheet, or its Summary sheet's heading)."""
+    names = {ws.title.strip(): ws for ws in wb.worksheets}
+    if REPORT_SHEETS & set(names):
+        return True
+    summary = names.get("Summary")
+    head = [c.value for c in next(summary.iter_rows(max_row=1), ())] if summary is not None else []
+    return head[:3] == ["item", "value", "unit / meaning"]
+
+
+def _formulas_without_values(path: Path) -> dict[str, dict[tuple[int, int], str]]:
+    """Formula cells of each sheet, by (row, column), read only when the file holds formulas at all."""
+    import zipfile
+
+    try:
+        with zipfile.ZipFile(path) as z:
+            sheets = [n for n in z.namelist() if n.startswith("xl/worksheets/") and n.endswith(".xml")]
+            if not any(re.search(rb"<f[ >]", z.read(n)) for n in sheets):
+                return {}
+    except (OSError, zipfile.BadZipFile, KeyError):
+        return {}
+    from openpyxl import load_workbook
+
+    wb = load_workbook(path, read_only=True, data_only=False)
+    out: dict[str, dict[tuple[int, int], str]] = {}
+    for ws in wb.worksheets:
+        cells = {}
+        for r, row in enumerate(ws.iter_rows(values_only=True), start=1):
+            for c, v in enumerate(row, start=1):
+                if isinstance(v, str) and v.startswith("="):
+                    cells[(r, c)] = v
+        if cells:
+            out[ws.title] = cells
+    wb.close()
+    return out
+
+
 def read_xlsx(path: Path) -> ReadResult:
-    """Read a scenario workbook into the raw dict, with every cell's place remembered."""
+    """Read a scenario workbook into the raw dict, with every cell's place remembered.
+
+    A formula cell gives its saved value; one saved without a value (a file
+    written by a program and never opened) is reported as such.  A workbook
+    written by ``planner report`` is refused as a whole: it holds a plan.
+    """
     from openpyxl import load_workbook
 
     try:
@@ -97,22 +142,32 @@ def read_xlsx(path: Path) -> ReadResult:
     except Exception as e:  # openpyxl raises many kinds for a damaged or foreign file
         raise ScenarioError([Problem(str(path), f"cannot be read as an .xlsx workbook ({type(e).__name__}: {e})",
                                      "save it from the spreadsheet program as 'Excel Workbook (.xlsx)'")]) from None
+    if _is_report(wb):
+        raise ScenarioError([Problem(str(path), "this is a report workbook written by planner report: it holds a "
+                                     "plan and the inputs as read, not a scenario",
+                                     "use the scenario file it came from, named on its Summary sheet, or "
+                                     "`planner convert` that file to a workbook")])
+    formulas = None
     tables: dict[str, Table] = {}
     for ws in wb.worksheets:
         name = ws.title.strip()
         if name.lower() in IGNORED_SHEETS:
             continue
         rows = [list(r) for r in ws.iter_rows(values_only=True)]
+        if any(v is None for r in rows for v in r):
+            if formulas is None:
+                formulas = _formulas_without_values(path)
+            for (r, c), f in formulas.get(ws.title, {}).items():
+                if r <= len(rows) and c <= len(rows[r - 1]) and rows[r - 1][c - 1] is None:
+                    rows[r - 1][c - 1] = Formula(f)
         header = rows[0] if rows else []
         tables[name] = Table(name, list(header), [(i, r) for i, r in enumerate(rows[1:], start=2)])
     return from_tables(tables, lambda t: f"sheet {t}", path.stem, path.parent)
 
 
 def _put(ws, row: int, col: int, value: Any) -> None:
-    cell = ws.cell(row=row, column=col, value=value)
-    if isinstance(value, str) and value.startswith("="):
-        cell.data_type = "s"  # text, never a formula
-    elif isinstance(value, float) and math.isfinite(value) and float(f"{value:.16g}") != value:
+    cell = set_cell(ws, row, col, value)  # text is always text, never a formula (planner.files)
+    if isinstance(value, float) and math.isfinite(value) and float(f"{value:.16g}") != value:
         # openpyxl writes numbers with 16 significant digits; this one needs 17 to come back exactly.
         # The cell stays numeric (type 'n'); only the text written for it is the exact repr.
         cell._value = repr(value)
@@ -173,7 +228,9 @@ def write_template(path: str | Path) -> Path:
                   ("resources", "kind"): ["work_centre", "material", "other"],
                   ("demand", "regress"): ["volume-on-price", "price-on-volume"],
                   ("uncertainty", "field"): ["price_intercept", "price_slope", "unit_cost", "capacity"],
-                  ("uncertainty", "distribution"): ["normal", "triangular", "uniform", "fitted"]})
+                  ("uncertainty", "distribution"): ["normal", "triangular", "uniform", "fitted"],
+                  ("variant_changes", "plant"): ["TRUE"],
+                  ("variant_changes", "field"): [f for fields in CHANGE_FIELDS.values() for f in fields]})
     return _save(wb, Path(path))
 
 

@@ -1,6 +1,6 @@
 """Benchmark: a 25-point capacity sweep against one plan (target: sweep ≤ 5 × plan).
 
-Run ``python -m planner.capacity.bench [--large N]``; prints one row per case.
+Run ``python -m tests.benchmark.sweep [--large N]``; prints one row per case.
 Each time is the best of ``--repeat`` runs (the machine may be shared).
 The sweep covers the bottleneck (the binding resource with the highest
 shadow price) from 0.6× to 1.6× its capacity.
