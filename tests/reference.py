@@ -140,6 +140,7 @@ def qp_relaxation(s: Scenario, solver: str = "choose") -> dict:
     import time
 
     import highspy
+    import numpy as np
 
     t0 = time.perf_counter()
     prods, res = s.products, s.resources

@@ -64,7 +64,7 @@ from planner.engine.dual import DualPoint, choice_bounds
 from planner.engine.flips import improve
 from planner.engine.problem import Problem
 from planner.engine.settings import (BRANCH_MAX_ROWS, BRANCH_MODEL_TOL, BRANCH_NEWTON, BRANCH_NODES,
-                                     BRANCH_SMOOTH, BRANCH_SMOOTH_FROM)
+                                     BRANCH_OPEN_MAX, BRANCH_SMOOTH, BRANCH_SMOOTH_FROM)
 from planner.engine.slatedual import newton_direction, price_slate, value_at
 
 
@@ -75,7 +75,7 @@ class Branched:
     bound: float
     certified: bool
     nodes: int
-    reason: str  # "certified", "time_limit", "node_limit", "not_applicable"
+    reason: str  # "certified", "time_limit", "node_limit", "open_limit", "not_applicable"
 
 
 class _Model:
@@ -154,6 +154,8 @@ def branch_and_bound(p: Problem, slates, points: list[DualPoint], rel_gap: float
             return Branched(max(closed, -heap[0][0], slates.value), False, nodes, "time_limit")
         if nodes >= max_nodes:
             return Branched(max(closed, -heap[0][0], slates.value), False, nodes, "node_limit")
+        if len(heap) > BRANCH_OPEN_MAX:
+            return Branched(max(closed, -heap[0][0], slates.value), False, nodes, "open_limit")
         neg, _, state, lam, model = heapq.heappop(heap)
         if -neg <= target():
             closed = max(closed, -neg)
