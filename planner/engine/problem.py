@@ -56,9 +56,26 @@ class Problem:
         z = np.asarray(choice, dtype=bool)
         return np.packbits(z).tobytes() + z.size.to_bytes(4, "little")
 
-    def respond(self, lam: np.ndarray) -> list[Response]:
-        """Every family's best response at λ."""
-        return [f.respond(lam) for f in self.families]
+    def respond(self, lam: np.ndarray, choice: np.ndarray | None = None) -> list[Response]:
+        """Every family's best response at λ (with ``choice``: every choice forced to it)."""
+        if choice is None:
+            return [f.respond(lam) for f in self.families]
+        return [f.respond(lam, z) for f, z in zip(self.families, self.split(choice))]
+
+    def curvature(self, lam: np.ndarray, choice: np.ndarray) -> np.ndarray:
+        """(m × m) second derivative in λ of the priced value with ``choice`` forced (all families)."""
+        return sum((f.curvature(lam, z) for f, z in zip(self.families, self.split(choice))), np.zeros((self.m, self.m)))
+
+    def family_of(self, which: np.ndarray) -> list[tuple[int, np.ndarray, np.ndarray]]:
+        """(family index, positions in ``which``, the family's own choice indices) per family ``which`` touches."""
+        which = np.asarray(which, dtype=np.int64)
+        out = []
+        for k in range(len(self.families)):
+            a, b = self.bounds[k], self.bounds[k + 1]
+            pos = np.flatnonzero((which >= a) & (which < b))
+            if pos.size:
+                out.append((k, pos, which[pos] - a))
+        return out
 
     def feasible(self, choice: np.ndarray) -> bool:
         """False where a family's part of ``choice`` cannot hold on its own."""

@@ -12,7 +12,12 @@ relative gap ``rel_gap`` and an optional deadline:
    shared rows is minimised (:mod:`.dual`); its best value is a valid bound,
    and the choices the blocks make at its multipliers are slates, solved by the
    QP.  Where (bound − best) / max(|best|, 1) ≤ ``rel_gap``, that is the plan.
-5. Otherwise the tangent-cut MILP (:mod:`.cutmilp`) on one persistent HiGHS
+5. Otherwise (up to ``BRANCH_MAX_ROWS`` shared rows) the best slate is
+   improved by flipping marginal choices (:mod:`.flips`), then the
+   branch-and-bound over the Lagrangian (:mod:`.branch`) searches the choices
+   its bounds leave open; certified, or at the deadline, that is the answer.
+6. Otherwise (too many rows, a family without dense terms, or the node limit)
+   the tangent-cut MILP (:mod:`.cutmilp`) on one persistent HiGHS
    instance: the best slate as its MIP start, choices whose opposite cannot
    beat the incumbent fixed by their Lagrangian bounds, new cuts at every
    MILP's solution and at the exact values of every slate it meets.  The bound
@@ -32,14 +37,16 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from planner.engine.branch import branch_and_bound
 from planner.engine.certificate import Certificate
 from planner.engine.cutmilp import CutMilp
 from planner.engine.dual import DualPoint, choice_bounds, evaluate, minimise
 from planner.engine.enumerate import enumerate_slates
 from planner.engine.fallback import fallback_choices
+from planner.engine.flips import improve
 from planner.engine.highs import Outcome, Status
 from planner.engine.problem import Problem
-from planner.engine.settings import ENUMERATE_UP_TO, MAX_ROUNDS
+from planner.engine.settings import BRANCH_DUAL_TOL, BRANCH_MAX_ROWS, ENUMERATE_UP_TO, MAX_ROUNDS
 from planner.engine.slateqp import SlateResult, solve_choice
 
 
@@ -154,6 +161,32 @@ def search(p: Problem, rel_gap: float, deadline: float | None = None, threads: i
         return found(Status.OPTIMAL, "lagrangian")
     if out_of_time():
         return _fallback(p, slates, found, messages, "lagrangian")
+    if slates.best is not None and p.m <= BRANCH_MAX_ROWS:
+        # the dual minimised closely (its bounds fix the choices), flips of the marginal choices from the
+        # incumbent and from the slate at the dual's minimum, then the branch-and-bound over the Lagrangian
+        best = slates.best
+        slates.evaluate(improve(p, best.choice, best.duals, best.objective, deadline)[0])
+        if gap(bound) > rel_gap and not out_of_time():
+            fine = minimise(p, rel_tol=BRANCH_DUAL_TOL, deadline=deadline, bundle=dual.points, threads=threads,
+                            seed=seed, cert=cert)
+            steps += fine.steps
+            bound = min(bound, fine.best.value)
+            dual = fine
+            tried = [q.lam for q in dual.points[-10:]]
+            res = slates.evaluate(fine.best.choice)
+            if res.status == "optimal" and gap(bound) > rel_gap and not out_of_time():
+                slates.evaluate(improve(p, res.choice, res.duals, res.objective, deadline)[0])
+        if gap(bound) <= rel_gap:
+            messages.append("a better slate by flipping marginal choices")
+            return found(Status.OPTIMAL, "lagrangian+flips")
+        br = branch_and_bound(p, slates, dual.points, rel_gap, cert, deadline)
+        bound = min(bound, br.bound)
+        if br.reason != "not_applicable":
+            messages.append(f"branch-and-bound over the Lagrangian: {br.nodes} node{'s' if br.nodes != 1 else ''}")
+        if br.certified and gap(bound) <= rel_gap:
+            return found(Status.OPTIMAL, "lagrangian+branch")
+        if br.reason == "time_limit" or out_of_time():
+            return _fallback(p, slates, found, messages, "lagrangian+branch")
     return _milp(p, slates, dual.points, bound, rel_gap, cert, threads, seed, left, out_of_time, found, messages)
 
 

@@ -68,6 +68,44 @@ ENUMERATE_UP_TO = 12
 #: Slate QPs the enumeration may solve before handing over to the outer approximation.
 ENUMERATE_QPS = 48
 
+# --- Fixed-choice duals, flips and the branch-and-bound (slatedual, flips, branch)
+#: Largest (products × resources) for which the products' usage is also kept dense (Newton steps,
+#: node duals); beyond, those steps are skipped and the cut MILP closes the gap.
+DENSE_USAGE_UP_TO = 20_000_000
+#: Newton steps on one fixed-choice dual (planner.engine.slatedual); it is piecewise quadratic, so a
+#: warm start from a neighbouring slate's multipliers ends in 2–5 steps where prices slope.
+NEWTON_STEPS = 30
+#: A fixed-choice dual counts as minimised when the Newton decrement is below this fraction of its value.
+NEWTON_TOL = 1e-11
+#: Rounds of the flip search (planner.engine.flips): each prices up to FLIP_TRIES ranked moves.
+FLIP_ROUNDS = 40
+FLIP_TRIES = 8
+#: Pairs are ranked among this many best single flips.
+FLIP_PAIRS_OF = 200
+#: Branch-and-bound over the Lagrangian (planner.engine.branch): most shared rows for its dense
+#: Newton steps, most nodes before it hands over to the cut MILP, Newton steps per smoothing level.
+BRANCH_MAX_ROWS = 200
+#: Before flips and branching the dual is minimised to this relative accuracy (resumed from its
+#: bundle): measured on 1,000 products × 20 limits, 1e-9 instead of the gap's quarter left 465 nodes
+#: to search instead of 1,409 (its bounds fix more choices, its slate flips to a better incumbent).
+BRANCH_DUAL_TOL = 1e-9
+BRANCH_NODES = 2_000
+#: The search hands over to the cut MILP once this many nodes are open at once: a tree that wide means
+#: the Lagrangian's gap is too wide for its bounds (measured on the hard synthetic catalogues, 2 cores:
+#: 200 × 10 to 1,000 × 20, seeds 1–3, the branch-and-bound certified with at most 78 nodes open; 100
+#: products × 20 limits, root gap 1e-2, had 2,461 open after 6,400 nodes without closing any of the
+#: gap, where the cut MILP certifies in about 8 s).
+BRANCH_OPEN_MAX = 120
+BRANCH_NEWTON = 25
+#: Huber smoothing of an open choice's max(on, 0), first and last, as fractions of the incumbent's
+#: profit.  The node's bound is evaluated exactly, so the last level only sets how close to the node's
+#: minimum it gets (within about (rows)·μ/2).
+BRANCH_SMOOTH_FROM = 1e-6
+BRANCH_SMOOTH = 1e-6
+#: The quadratic model of the fixed part is rebuilt at a node's λ where it is off by more than this
+#: fraction of the incumbent's profit (the node's bound is exact either way).
+BRANCH_MODEL_TOL = 1e-8
+
 # --- Checks of a solved plan (planner.engine.verify)
 #: A limit broken by more than this fraction of max(|limit|, 1) is an error, not a plan.
 LIMIT_TOL = 1e-7

@@ -18,7 +18,16 @@ A family of blocks (:class:`Blocks`) answers, for all its blocks at once:
 
 - :meth:`Blocks.respond`: each block's best response at λ, exactly, and the
   value of each of its on/off choices forced either way (valid bounds with a
-  choice fixed: Lagrangian fixing and slate enumeration use them);
+  choice fixed: Lagrangian fixing and slate enumeration use them); with a
+  choice given, the response with every choice forced to it (the dual of a
+  fixed-choice QP, :mod:`planner.engine.slatedual`);
+- :meth:`Blocks.curvature`: the second derivative in λ of the family's priced
+  value with its choices forced (m × m, positive semidefinite; zero where the
+  value is piecewise linear), for Newton steps on fixed-choice duals;
+- :meth:`Blocks.choice_terms`: for a few choices, each one's priced value when
+  on, its use of the shared rows and its curvature, as dense arrays (the
+  branch-and-bound's node duals, :mod:`planner.engine.branch`, evaluate these
+  many times per node, never the whole family);
 - :meth:`Blocks.continuous`: with its on/off choices fixed, its columns of the
   continuous QP (linear and diagonal quadratic profit, bounds, use of the shared
   rows) and the constant and capacity it contributes;
@@ -53,6 +62,23 @@ class Response:
     off: np.ndarray  # (K,) ... when forced off (−inf: impossible)
     fixed: float  # priced profit of the family's blocks that have no choice (so value = fixed + Σ max(on, off))
     x: np.ndarray  # the family's variables at the best response (e.g. volumes)
+
+
+@dataclass
+class Terms:
+    """Some choices' blocks when on, at multipliers λ (one row per choice; the shared rows' units).
+
+    The branch-and-bound needs blocks whose off side is empty (no value, no
+    use: products and options are), so a choice's part of a node dual is
+    ``on`` when forced on, 0 when forced off and max(on, 0) when open.
+    Near λ, ``on`` is a function of λ with gradient −``use`` and Hessian
+    ``weight``·gᵀg with g = ``direction`` (rank one per choice, ≥ 0).
+    """
+
+    on: np.ndarray  # (k,) priced profit when on (−inf: the choice cannot be on)
+    use: np.ndarray  # (k, m) use of the shared rows when on
+    weight: np.ndarray  # (k,) curvature weight, ≥ 0
+    direction: np.ndarray  # (k, m)
 
 
 @dataclass
@@ -97,8 +123,21 @@ class Blocks(ABC):
         """Number of the family's variables (the length of ``Response.x`` and of a solution's values)."""
 
     @abstractmethod
-    def respond(self, lam: np.ndarray) -> Response:
-        """Every block's exact best response at λ ≥ 0."""
+    def respond(self, lam: np.ndarray, choice: np.ndarray | None = None) -> Response:
+        """Every block's exact best response at λ ≥ 0; with ``choice`` ((K,) bool), every choice forced to it.
+
+        ``on`` and ``off`` are the same either way; ``value``, ``use``, ``choice``
+        and ``x`` follow the forced choice where one is given.
+        """
+
+    def curvature(self, lam: np.ndarray, choice: np.ndarray) -> np.ndarray:
+        """(m × m) second derivative in λ of the family's priced value with ``choice`` forced (default: 0)."""
+        m = int(np.asarray(lam).size)
+        return np.zeros((m, m))
+
+    def choice_terms(self, lam: np.ndarray, which: np.ndarray) -> Terms | None:
+        """:class:`Terms` of the choices ``which`` (indices) at λ, or None where the family cannot give them."""
+        return None
 
     @abstractmethod
     def continuous(self, choice: np.ndarray) -> Columns:

@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 from models.data import MixData
-from planner.engine.blocks.base import Blocks, Columns, MilpBuilder, Response
+from planner.engine.blocks.base import Blocks, Columns, MilpBuilder, Response, Terms
 
 
 class OptionBlocks(Blocks):
@@ -41,7 +41,7 @@ class OptionBlocks(Blocks):
     def n_vars(self) -> int:
         return int(self.cost.size)
 
-    def respond(self, lam: np.ndarray) -> Response:
+    def respond(self, lam: np.ndarray, choice: np.ndarray | None = None) -> Response:
         m = len(self.d.resources)
         if not self.cost.size:
             e = np.zeros(0)
@@ -49,9 +49,16 @@ class OptionBlocks(Blocks):
         gain = self.A @ lam - self.cost
         s = (gain > 0).astype(float)
         on, off = gain[self.whole], np.zeros(self.whole.size)
+        taken = on > off if choice is None else np.asarray(choice, dtype=bool)
+        s[self.whole] = taken
         fixed = float(np.sum(np.maximum(gain[self.part], 0.0)))
-        value = fixed + float(np.sum(np.maximum(on, off)))
-        return Response(value, -(s @ self.A), on > off, on, off, fixed, s)
+        value = fixed + float(np.sum(np.where(taken, on, off)))
+        return Response(value, -(s @ self.A), taken, on, off, fixed, s)
+
+    def choice_terms(self, lam: np.ndarray, which: np.ndarray) -> Terms | None:
+        k = self.whole[np.asarray(which, dtype=np.int64)]
+        A = self.A[k]
+        return Terms(A @ lam - self.cost[k], -A, np.zeros(k.size), A)
 
     def continuous(self, choice: np.ndarray) -> Columns:
         m = len(self.d.resources)

@@ -9,6 +9,9 @@ choice (it must run, or nothing is saved by stopping: ``MixData.can_stop``).
 At multipliers λ its priced problem has a closed form: with
 c_i = a_i − v_i − (Hᵀλ)_i, the running volume is clip(c_i / (2 b_i), floor, U)
 (a fixed-price product goes to a bound), and it runs if that beats stopping.
+Running, its priced value has gradient −h_i·D_i in λ and, strictly inside
+its bounds with b_i > 0, Hessian h_i h_iᵀ / (2 b_i) (0 at a bound or for a
+fixed price); the family's curvature is the sum over running products.
 
 In the continuous QP a running product is a column with profit c·D − b·D²
 over floor ≤ D ≤ ``MixData.qp_upper`` (a bound that never competes with a
@@ -27,8 +30,8 @@ from __future__ import annotations
 import numpy as np
 
 from models.data import MixData, peak_contribution
-from planner.engine.blocks.base import Blocks, Columns, MilpBuilder, Response
-from planner.engine.settings import CUT_VIOLATION
+from planner.engine.blocks.base import Blocks, Columns, MilpBuilder, Response, Terms
+from planner.engine.settings import CUT_VIOLATION, DENSE_USAGE_UP_TO
 from planner.engine.highs import INF
 
 
@@ -78,7 +81,7 @@ class ProductBlocks(Blocks):
         """The choice vector of a (n,) running mask."""
         return np.asarray(running, dtype=bool)[self.free]
 
-    def respond(self, lam: np.ndarray) -> Response:
+    def respond(self, lam: np.ndarray, choice: np.ndarray | None = None) -> Response:
         d = self.d
         c = d.margin - priced_usage(d, lam)
         D = best_response(c, d.b, self.floor, self.hi)
@@ -86,12 +89,58 @@ class ProductBlocks(Blocks):
         on = np.where(self.reachable, run_value, -np.inf)[self.free]
         off = np.zeros(self.free.size)
         run = np.ones(d.n, dtype=bool)
-        run[self.free] = on > off
+        run[self.free] = on > off if choice is None else np.asarray(choice, dtype=bool)
         always = ~d.can_stop
         fixed = float(np.sum(run_value[always]))
         D = np.where(run, D, 0.0)
-        value = fixed + float(np.sum(np.maximum(on, off)))
+        value = fixed + float(np.sum(np.maximum(on, off) if choice is None else np.where(run[self.free], on, off)))
         return Response(value, d.used(D), run[self.free], on, off, fixed, D)
+
+    def dense_usage(self) -> np.ndarray | None:
+        """(n × m) usage h_ri by product, or None beyond ``DENSE_USAGE_UP_TO`` entries."""
+        if not hasattr(self, "_dense"):
+            d, m = self.d, len(self.d.resources)
+            self._dense = None
+            if d.n * m <= DENSE_USAGE_UP_TO:
+                flat = np.bincount(d.use_prod * m + d.use_res, weights=d.use_amt, minlength=d.n * m)
+                self._dense = flat.astype(float).reshape(d.n, m)
+        return self._dense
+
+    def _weights(self, c: np.ndarray, D: np.ndarray, b: np.ndarray, lo: np.ndarray,
+                 hi: np.ndarray) -> np.ndarray:
+        """1/(2b) where a product's volume is strictly inside its bounds and b > 0, else 0."""
+        inside = (b > 0) & (D > lo) & (D < hi)
+        return np.where(inside, 1.0 / (2.0 * np.where(b > 0, b, 1.0)), 0.0)
+
+    def curvature(self, lam: np.ndarray, choice: np.ndarray) -> np.ndarray:
+        d, m = self.d, len(self.d.resources)
+        HT = self.dense_usage()
+        if HT is None:
+            return np.zeros((m, m))
+        run = self.running(choice)
+        c = d.margin - HT @ lam
+        D = best_response(c, d.b, self.floor, self.hi)
+        w = np.where(run, self._weights(c, D, d.b, self.floor, self.hi), 0.0)
+        k = np.flatnonzero(w)
+        return (HT[k].T * w[k]) @ HT[k]
+
+    def choice_terms(self, lam: np.ndarray, which: np.ndarray) -> Terms | None:
+        HT = self.dense_usage()
+        if HT is None:
+            return None
+        d = self.d
+        which = np.asarray(which, dtype=np.int64)
+        got = getattr(self, "_subset", None)  # the branch-and-bound asks for the same choices many times
+        if got is None or got[0].shape != which.shape or not np.array_equal(got[0], which):
+            i = self.free[which]
+            got = (which.copy(), HT[i], d.margin[i], self.floor[i], self.hi[i], d.b[i], d.F[i],
+                   self.reachable[i])
+            self._subset = got
+        _, g, margin, lo, hi, b, F, reach = got
+        c = margin - g @ lam
+        D = best_response(c, b, lo, hi)
+        on = np.where(reach, c * D - b * D * D - F, -np.inf)
+        return Terms(on, g * D[:, None], self._weights(c, D, b, lo, hi), g)
 
     def continuous(self, choice: np.ndarray) -> Columns:
         d = self.d
