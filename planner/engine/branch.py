@@ -114,7 +114,7 @@ class _Open:
 
 def applicable(p: Problem, J: np.ndarray) -> bool:
     """True if every open choice's family gives its terms and the rows are few enough for dense steps."""
-    if p.m > BRANCH_MAX_ROWS or p.m == 0:
+    if p.m > BRANCH_MAX_ROWS or p.m == 0 or not p.forced:
         return False
     lam = np.zeros(p.m)
     return all(p.families[f].choice_terms(lam, local[:1]) is not None for f, _, local in p.family_of(J))

@@ -29,6 +29,11 @@ class Problem:
         self.bounds = np.r_[0, np.cumsum(sizes)].astype(int)
 
     @property
+    def forced(self) -> bool:
+        """True where every family gives forced responses, curvature and choice terms (flips, branching)."""
+        return all(f.forced for f in self.families)
+
+    @property
     def n_choices(self) -> int:
         return int(self.bounds[-1])
 

@@ -161,7 +161,7 @@ def search(p: Problem, rel_gap: float, deadline: float | None = None, threads: i
         return found(Status.OPTIMAL, "lagrangian")
     if out_of_time():
         return _fallback(p, slates, found, messages, "lagrangian")
-    if slates.best is not None and p.m <= BRANCH_MAX_ROWS:
+    if slates.best is not None and p.m <= BRANCH_MAX_ROWS and p.forced:
         # the dual minimised closely (its bounds fix the choices), flips of the marginal choices from the
         # incumbent and from the slate at the dual's minimum, then the branch-and-bound over the Lagrangian
         best = slates.best

@@ -111,6 +111,10 @@ class Blocks(ABC):
 
     #: Short name, used in messages.
     name: str = "blocks"
+    #: True where the family answers ``respond(lam, choice)`` with every choice forced, ``curvature``
+    #: and ``choice_terms`` (what the flips and the branch-and-bound need); a family that does not is
+    #: solved through the cut MILP only.
+    forced: bool = False
 
     @property
     @abstractmethod

@@ -25,6 +25,7 @@ class OptionBlocks(Blocks):
     """The capacity options of ``d``; its choices are the all-or-nothing ones."""
 
     name = "options"
+    forced = True
 
     def __init__(self, d: MixData) -> None:
         self.d = d

@@ -55,6 +55,7 @@ class ProductBlocks(Blocks):
     """Every product of ``d`` as a block; its choices are the products with a real on/off choice."""
 
     name = "products"
+    forced = True
 
     def __init__(self, d: MixData) -> None:
         self.d = d
