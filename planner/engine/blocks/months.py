@@ -49,7 +49,7 @@ from planner.engine.highs import INF
 from planner.engine.settings import CUT_VIOLATION
 
 #: Bisection steps on the initial stock's multiplier (each halves its bracket).
-STOCK_STEPS = 80
+STOCK_STEPS = 64
 
 
 def _sell(a: np.ndarray, b: np.ndarray, q: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
@@ -137,11 +137,12 @@ class MonthBlocks(Blocks):
             who = np.zeros((n, T), dtype=np.int64)
         I, E, lo, hi = pd.initial, pd.final, pd.lo, self.hi
 
-        def from_stock(mu):
-            q = np.minimum(P, mu[:, None] + C[:, :T])
-            x = _sell(pd.a, pd.b, q, lo, hi)
-            take = (mu[:, None] + C[:, :T] < P)
-            need = np.sum(np.where(take, x, 0.0), axis=1) + np.where(mu + C[:, T] < PT, E, 0.0)
+        def from_stock(mu, k=slice(None)):  # (the products k only: the bisection runs on those with stock)
+            Ck = C[k]
+            q = np.minimum(P[k], mu[:, None] + Ck[:, :T])
+            x = _sell(pd.a[k], pd.b[k], q, lo[k], hi[k])
+            take = (mu[:, None] + Ck[:, :T] < P[k])
+            need = np.sum(np.where(take, x, 0.0), axis=1) + np.where(mu + Ck[:, T] < PT[k], E[k], 0.0)
             return q, x, need
 
         def g(mu):
@@ -153,15 +154,16 @@ class MonthBlocks(Blocks):
         steep = np.where(pd.b > 0, 2 * pd.b * np.where(np.isfinite(hi), hi, 0.0), 0.0)
         top = np.max(np.where(np.isfinite(P), P, pd.a + steep) - C[:, :T], axis=1)
         top = np.maximum(np.maximum(top, np.where(np.isfinite(PT), PT - C[:, T], 0.0)), low) + 1.0
-        has = I > 0
-        lo_mu, hi_mu = low.copy(), np.where(has, top, low)
-        for _ in range(STOCK_STEPS if has.any() else 0):
+        has = np.flatnonzero(I > 0)
+        lo_mu, hi_mu = low[has], top[has]
+        for _ in range(STOCK_STEPS if has.size else 0):
             mid = 0.5 * (lo_mu + hi_mu)
-            _, _, need = from_stock(mid)
-            more = need > I  # g' < 0: the stock is worth more
-            lo_mu = np.where(has & more, mid, lo_mu)
-            hi_mu = np.where(has & ~more, mid, hi_mu)
-        mu = np.where(has, hi_mu, top)
+            _, _, need = from_stock(mid, has)
+            more = need > I[has]  # g' < 0: the stock is worth more
+            lo_mu = np.where(more, mid, lo_mu)
+            hi_mu = np.where(more, hi_mu, mid)
+        mu = top.copy()
+        mu[has] = hi_mu
         value = g(mu)  # an upper bound at any μ; within the bisection's bracket of the least
         q, sold, _ = from_stock(mu)
         made = self._made(P, PT, C, e, who, mu, sold, makes)
