@@ -245,3 +245,57 @@ def test_cut_milp_converges_to_scip(seed):
         if not milp.cuts(r.x):
             break
     assert r.bound == pytest.approx(ref, rel=1e-5)
+
+
+def _one_period_pair(seed: int) -> tuple[dict, dict]:
+    """A seeded scenario without periods, and the same with one period (lists of one number)."""
+    raw = random_raw(seed, n=4, T=1)
+    for p in raw["products"]:
+        for f in ("holding_cost", "initial_stock", "final_stock", "stock_usage"):
+            p.pop(f, None)
+    months = copy.deepcopy(raw)
+    today = copy.deepcopy(raw)
+    del today["periods"]
+    for p in today["products"]:
+        for f in ("price_intercept", "price_slope", "unit_cost", "max_volume"):
+            if isinstance(p.get(f), list):
+                p[f] = p[f][0]
+    for r in today["resources"]:
+        r["capacity"] = r["capacity"][0]
+    return today, months
+
+
+@settings(max_examples=20, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(st.integers(0, 100_000))
+def test_property_one_period_equals_today(seed):
+    """Hypothesis: a one-period file plans as the same file without periods (profit and each product's volume)."""
+    today, months = _one_period_pair(seed)
+    try:
+        _, a = _plan(today)
+    except Exception as e:
+        with pytest.raises(type(e)):
+            _plan(months)
+        return
+    _, b = _plan(months)
+    assert b.profit == pytest.approx(a.profit, rel=1e-7, abs=1e-6)
+    for x, y in zip(b.products, a.products):
+        assert x.volume == pytest.approx(y.volume, rel=1e-5, abs=1e-5)
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_model_of_record_agrees(seed):
+    """The Pyomo model of record over periods (models/months.py), solved by SCIP through Pyomo, agrees with the
+    engine and with SCIP on the raw numbers."""
+    import pyomo.environ as pyo
+
+    from models.months import build_period_model
+
+    raw = random_raw(700 + seed, n=4, T=3)
+    s, p = _plan(raw)
+    d = mix_data(s)
+    m = build_period_model(d.periods, d.products)
+    got = pyo.SolverFactory("scip_direct" if pyo.SolverFactory("scip_direct").available(False) else "scip")
+    opt = got.solve(m, options={"limits/gap": 1e-9})
+    assert str(opt.solver.termination_condition) == "optimal"
+    assert pyo.value(m.profit) == pytest.approx(p.profit, rel=1e-6)
+    assert pyo.value(m.profit) == pytest.approx(scip_periods(raw)[0], rel=1e-6)

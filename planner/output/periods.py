@@ -39,7 +39,7 @@ def period_plan(s, d: MixData, sol, info: dict[str, Any], warnings: list[str]) -
                       pd.hi.min(axis=1))
     products, prod_rows = [], {}
     for i, p in enumerate(s.products):
-        running = bool(sol.running[i])
+        running = bool(sol.running[i]) if d.can_stop[i] else bool(d.must_run[i]) or made[i].sum() > 0
         revenue = float(np.sum(price[i] * sold[i]))
         holding = float(np.sum(pd.hold[i] * stock[i]))
         var_cost = float(np.sum(pd.v[i] * made[i])) + holding
