@@ -299,3 +299,44 @@ def test_model_of_record_agrees(seed):
     assert str(opt.solver.termination_condition) == "optimal"
     assert pyo.value(m.profit) == pytest.approx(p.profit, rel=1e-6)
     assert pyo.value(m.profit) == pytest.approx(scip_periods(raw)[0], rel=1e-6)
+
+
+def test_cli_plan_and_refusals(tmp_path):
+    """`planner plan` over periods writes the contract; commands that do not handle periods yet refuse (exit 2)."""
+    import yaml
+    from click.testing import CliRunner
+
+    from planner.cli.main import main
+
+    path = tmp_path / "quarter.yaml"
+    path.write_text(yaml.safe_dump(QUARTER, sort_keys=False))
+    out = tmp_path / "plan.json"
+    res = CliRunner().invoke(main, ["plan", str(path), "--json", str(out)])
+    assert res.exit_code == 0, res.output
+    assert "Per period: made / sold / stock" in res.output and "November" in res.output
+    assert json.loads(out.read_text())["periods"] == QUARTER["periods"]
+    for args, what in ((["sweep", str(path), "--resource", "saw line", "--to", "1000"], "planner sweep"),
+                       (["report", str(path), "--out", str(tmp_path / "r")], "planner report"),
+                       (["plan", str(path), "--solver", "scip"], "--solver"),
+                       (["convert", str(path), str(tmp_path / "q.xlsx")], "convert to a workbook")):
+        res = CliRunner().invoke(main, args)
+        assert res.exit_code == 2, (args, res.output)
+        assert f"periods: {what}" in res.stderr and "is not supported with periods yet" in res.stderr
+
+
+def test_cli_infeasible_names_the_month(tmp_path):
+    """Commitments over periods that cannot fit: exit 3, the resource and the month named (hand calculation:
+    500 committed in February, at most 100 + 300 press hours by then, 100 short)."""
+    import yaml
+    from click.testing import CliRunner
+
+    from planner.cli.main import main
+
+    raw = {"name": "tight", "periods": ["Jan", "Feb"], "products": [
+        {"name": "a", "price_intercept": 100, "unit_cost": 10, "price_slope": 0.1, "min_volume": [0, 500],
+         "usage": {"press": 1}}], "resources": [{"name": "press", "capacity": [100, 300], "unit": "h"}]}
+    path = tmp_path / "tight.yaml"
+    path.write_text(yaml.safe_dump(raw, sort_keys=False))
+    res = CliRunner().invoke(main, ["plan", str(path)])
+    assert res.exit_code == 3
+    assert "press in Feb: the committed sales and final stock need 100 h more than its capacity 300" in res.stderr

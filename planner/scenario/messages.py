@@ -143,6 +143,10 @@ def pydantic_problems(raw: dict[str, Any], err: ValidationError) -> list[Problem
                 problems.append(Problem(where, f"names must be text (got {show(loc[-2])})", f"quote it: '{loc[-2]}'"))
             continue
         where = where_of(raw, loc)
+        periods = raw.get("periods")
+        if (len(loc) == 4 and loc[0] in ("products", "resources") and isinstance(loc[3], int)
+                and isinstance(periods, list) and 0 <= loc[3] < len(periods) and isinstance(periods[loc[3]], str)):
+            where = f"{where_of(raw, loc[:3])} in {periods[loc[3]]}"  # one number of a per-period list
         if where in skip:
             continue
         if kind == "extra_forbidden":

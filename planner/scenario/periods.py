@@ -96,7 +96,7 @@ def period_problems(raw: dict[str, Any]) -> list[Problem]:
         for f in ("setup_cost", "setup_time"):
             if _used(p.get(f)):
                 problems.append(Problem(f"{at}.{f}", "setup costs and times are not planned yet",
-                                        f"remove {f} (a later version plans each period's setup)"))
+                                        f"remove {f} for now: a later version plans each period's setup"))
         if _used(p.get("demand")):
             problems.append(Problem(f"{at}.demand", "is not supported with periods yet",
                                     "give price_intercept and price_slope per period"))
