@@ -85,9 +85,12 @@ def test_quarter_matches_scip():
         assert [x["made"] for x in got] == pytest.approx(made, rel=1e-5, abs=1e-4)
 
 
-@pytest.mark.parametrize("seed", range(12))
+@pytest.mark.parametrize("seed", range(40))
 def test_random_against_scip(seed):
-    """Seeded scenarios with fixed costs, stock, final stock, stock usage, caps and commitments: SCIP's optimum."""
+    """Seeded scenarios with fixed costs, stock, final stock, stock usage, caps and commitments: SCIP's optimum.
+
+    (Seed 17 once found the commitments check refusing a feasible plan: it fixed sales at the commitments,
+    so stock that selling more would have cleared out of a warehouse counted against its capacity.)"""
     raw = random_raw(seed, n=3 + seed % 3, T=2 + seed % 3)
     try:
         s, p = _plan(raw)
