@@ -31,8 +31,12 @@ dual, and which products have a real on/off choice.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
+
+if TYPE_CHECKING:
+    from models.periods import PeriodData
 
 
 @dataclass(frozen=True)
@@ -57,6 +61,7 @@ class MixData:
     opt_amount: np.ndarray | None = None  # (options × resources), resource units at full scale
     opt_cost: np.ndarray | None = None  # currency at full scale
     opt_whole: np.ndarray | None = None  # True: all or nothing; False: usable in part
+    periods: "PeriodData | None" = None  # several periods (models.periods): the rows are (resource, period) pairs
     upper: np.ndarray = field(init=False)
     qp_upper: np.ndarray = field(init=False)
     can_stop: np.ndarray = field(init=False)

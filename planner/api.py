@@ -23,9 +23,12 @@ from planner.engine.verify import check_plan
 from planner.errors import PlannerError, SolverError
 from planner.output.plan import Plan, ProductPlan, ResourcePlan, solver_versions
 from planner.scenario.arrays import mix_data
+from planner.output.periods import period_plan
+from planner.engine.infeasible_periods import explain_periods
 from planner.scenario.demand import extrapolation_warnings
 from planner.scenario.guard import check_extra_capacity, check_names, check_numbers
 from planner.scenario.loading import load_scenario
+from planner.scenario.periods import refuse_periods
 from planner.scenario.schema import Scenario
 
 
@@ -54,9 +57,15 @@ def plan(scenario: Scenario | str | Path, rel_gap: float = DEFAULT_GAP, time_lim
         scenario, warnings = load_scenario(scenario)
     check_names(scenario)  # a Scenario changed in code skips the validator: nothing unchecked reaches the solver
     check_extra_capacity(scenario, extra_capacity)
+    if scenario.periods is not None and (solver or extra_capacity):
+        refuse_periods(scenario, "--solver" if solver else "extra capacity", "leave it out: the planner's own "
+                       "engine plans every period")
     d = mix_data(scenario, extra_capacity)
-    check_numbers(scenario, d)
-    explain_infeasible(scenario, d)  # commitments that cannot fit: named, in the scenario's units
+    if d.periods is None:
+        check_numbers(scenario, d)
+        explain_infeasible(scenario, d)  # commitments that cannot fit: named, in the scenario's units
+    else:
+        explain_periods(scenario, d)
     try:
         sol = engine_for(scenario, d, threads, seed).solve(rel_gap=rel_gap, time_limit=time_limit, solver=solver)
     except PlannerError:
@@ -83,6 +92,10 @@ IPM_ADVICE_FROM = 1000
 def build_plan(s: Scenario, d: MixData, sol: Solution, warnings: list[str] | None = None,
                threads: int = 1, seed: int = 0) -> Plan:
     """Assemble the Plan from a solution; a solution that breaks a limit is an error (SolverError), not a plan."""
+    if d.periods is not None:  # several periods: the months beside the horizon's totals
+        info = {"strategy": sol.strategy, "rounds": sol.rounds, "seconds": sol.seconds, "qp_method": sol.qp_method,
+                "threads": threads, "random_seed": seed, "messages": sol.messages, "versions": solver_versions()}
+        return period_plan(s, d, sol, info, list(warnings or []))
     vol = np.asarray(sol.volume, dtype=float)
     check_plan(d, vol, sol.running, sol.option_scale)
     econ = standalone(d.a, d.b, d.v, d.F, d.cap)

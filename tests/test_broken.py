@@ -304,6 +304,19 @@ EXPECTED: dict[str, list[str]] = {
         'variants[big commitment].changes[1]: makes products[bracket] commit 1000 above its max_volume 900 (lower the commitment or raise the cap)',
         'variants[big commitment].changes[2]: makes resources[mill].capacity 4.16e+15, but it is too large (more than 1e+15) (use a larger unit, such as thousands or tonnes, so amounts stay within 1e15)',
     ],
+    '78_period_mistakes.yaml': [
+        "products[bookcase].price_slope in December: must be a plain number (got '0,2') (write 0.2 with a decimal point)",
+        'products[bookcase].price_intercept: has 2 values but there are 3 periods (October, November, December) (give one number per period, in the order of periods, or one number for all)',
+        'products[bookcase].stock_usage.warehuose: names a resource that is not defined (add it under resources or fix the name)',
+        'products[bookcase].min_volume: in November: committed volume 50 exceeds max_volume 40 (lower the commitment or raise the cap)',
+        "products[bookcase].setup_cost: setup costs and times are not planned yet (remove setup_cost for now: a later version plans each period's setup)",
+        'resources[saw line].capacity: has 4 values but there are 3 periods (October, November, December) (give one number per period, in the order of periods, or one number for all)',
+    ],
+    '79_stock_without_periods.yaml': [
+        'products[bookcase].price_intercept: is a list of 3 values but the scenario has no periods (add periods: [names...] or give one number)',
+        'products[bookcase].holding_cost: only applies with periods (add periods: [names...] or remove it)',
+        'products[bookcase].initial_stock: only applies with periods (add periods: [names...] or remove it)',
+    ],
 }
 
 

@@ -58,6 +58,9 @@ def register(main: click.Group) -> None:
                 from planner.scenario.loading import load_scenario
 
                 s, warns = load_scenario(scenarios[0])
+                from planner.scenario.periods import refuse_periods
+
+                refuse_periods(s, "planner compare")
                 if not quiet:
                     for w in warns:
                         err_console.print(f"warning: {w}", markup=False, highlight=False)

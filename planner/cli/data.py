@@ -159,7 +159,11 @@ def register(main: click.Group) -> None:
         from planner.scenario.loading import load_scenario, read_raw
 
         _check_target(target, force)
-        load_scenario(source)
+        scenario = load_scenario(source)[0]
+        if target.suffix.lower() not in (".yaml", ".yml"):
+            from planner.scenario.periods import refuse_periods
+
+            refuse_periods(scenario, "convert to a workbook or CSV folder", "convert to .yaml, or leave periods out")
         raw = rebase_history(read_raw(source), base_dir_of(source), base_dir_of(target))
         write_scenario(raw, target, wide_usage=wide_usage)
         console.print(f"{source} → {target}")

@@ -73,6 +73,9 @@ def register(main: click.Group) -> None:
         t0 = time.perf_counter()
         deadline = None if time_limit is None else t0 + time_limit  # the plan and its analysis
         s, warnings = load_scenario(scenario)
+        from planner.scenario.periods import refuse_periods
+
+        refuse_periods(s, "planner report")
         solve = {"rel_gap": rel_gap, "time_limit": time_limit, "solver": solver}
         p = plan(s, **{**solve, "time_limit": None if deadline is None else max(deadline - time.perf_counter(), 0.01)})
         p.warnings[:0] = [w for w in warnings if w not in p.warnings]

@@ -159,6 +159,9 @@ def risk_cmd(scenario: Path, samples: int, seed: int, json_path: Path | None, ch
         bar.update(task, completed=done)
 
     s, warns = load_scenario(scenario)
+    from planner.scenario.periods import refuse_periods
+
+    refuse_periods(s, "planner risk")
     warns = list(warns) + coverage_warnings(s)
     if not quiet:
         for w in warns:

@@ -103,6 +103,9 @@ def register(main: click.Group) -> None:
         from planner.serve.app import WhatIf, make_app
 
         s, warns = load_scenario(scenario)
+        from planner.scenario.periods import refuse_periods
+
+        refuse_periods(s, "planner serve")
         raw = read_raw(scenario)
         target = save_to if save_to is not None else copy_path(scenario)
         if target.exists() or target.is_symlink():

@@ -59,6 +59,9 @@ def register(main: click.Group) -> None:
         from planner.files import write_text_atomic
 
         s, warns = load_scenario(scenario)
+        from planner.scenario.periods import refuse_periods
+
+        refuse_periods(s, "planner sweep (and sweep --period)")
         start = check_sweep(s, resource, start, stop)
         if start > stop and not quiet:
             console.print(f"[dim]the sweep runs from {_n(stop)} up to {_n(start)} (--to is below the start); "

@@ -36,7 +36,7 @@ from planner.engine.scaling import Scales
 from planner.engine.search import Found, search
 from planner.engine.settings import CHECK_STEPS, DEFAULT_GAP
 from planner.engine.slateqp import SlateResult, solve_choice
-from planner.engine.verify import check_plan, clean_volumes
+from planner.engine.verify import check_period_plan, check_plan, clean_period_volumes, clean_volumes
 from planner.errors import InfeasibleError, SolverError
 
 
@@ -60,11 +60,18 @@ class Solution:
     multipliers: np.ndarray | None = None  # currency per resource unit: the best Lagrangian λ met
     multipliers_tried: list = field(default_factory=list)  # λ's worth a warm start next time
     offset: float = 0.0  # currency: the plant-wide fixed cost, subtracted before the gap is measured
+    made: np.ndarray | None = None  # with periods: (n × T) units made per product and period
+    sold: np.ndarray | None = None  # with periods: (n × T) units sold per product and period
 
     @property
     def gap(self) -> float:
         """The certified gap of the plan's profit: (bound − profit) / max(|profit|, 1), profit after ``offset``."""
         return relative_gap(self.bound - self.offset, self.objective - self.offset)
+
+
+#: Relative allowance added to the bound of a plan over periods whose fixed-choice QP is HiGHS's own
+#: answer (not polished by the KKT conditions): HiGHS's QP tolerances are about 1e-7 to 1e-8.
+UNPOLISHED_SLACK = 1e-6
 
 
 class Engine:
@@ -77,7 +84,7 @@ class Engine:
         self.base = d
         self.offset = float(offset)
         self.threads, self.seed = int(threads), int(seed)
-        self.scales = Scales.of(d) if scaled else Scales.identity(d)
+        self.scales = Scales.of(d) if scaled and d.periods is None else Scales.identity(d)
         self.units = units
         self._warm: list[np.ndarray] | None = None  # scaled multipliers of the last warm solve
         self.solves = 0
@@ -197,7 +204,7 @@ class Engine:
                                                               else "") + " (try --solver scip, or report it)")
         sol = self._from_slate(d, p, found.best, found.bound, found.status, found.strategy)
         sol.rounds, sol.dual_steps = found.rounds, found.dual_steps
-        sol.messages = list(found.messages)
+        sol.messages = list(found.messages) + list(sol.messages)
         if found.multipliers is not None:
             sol.multipliers = self.scales.prices_out(found.multipliers)
         sol.multipliers_tried = [self.scales.prices_out(x) for x in found.tried]
@@ -207,6 +214,8 @@ class Engine:
                     strategy: str) -> Solution:
         mu = self.scales.money
         parts = p.split(res.choice)
+        if d.periods is not None:
+            return self._from_periods(d, p, res, bound, status, strategy)
         volume = clean_volumes(self.scales.volumes(res.values[0]), d)
         running = p.products.running(parts[0])
         scale = p.options.scale_of(res.values[1], parts[1]) if d.n_options else np.zeros(0)
@@ -215,3 +224,22 @@ class Engine:
         return Solution(str(status), volume, running, objective, max(bound * mu, objective),
                         self.scales.prices_out(res.duals), strategy, qp_method=res.method, option_scale=scale,
                         offset=self.offset)
+
+    def _from_periods(self, d: MixData, p: Problem, res: SlateResult, bound: float, status: str,
+                      strategy: str) -> Solution:
+        """The Solution of a plan over periods: made and sold per period, volumes as the horizon's sales."""
+        made, sold = p.products.split(res.values[0])
+        made, sold = clean_period_volumes(made, d.periods), clean_period_volumes(sold, d.periods)
+        running = p.products.running(p.split(res.choice)[0])
+        check_period_plan(d.periods, made, sold, running)
+        bound = max(bound, res.objective)
+        messages = []
+        if not res.method.endswith("+kkt"):  # HiGHS's own answer (its tolerance), not polished to exactness:
+            bound += UNPOLISHED_SLACK * max(abs(res.objective), 1.0)  # the bound says so
+            messages.append("the fixed-choice QP over periods was not polished exactly: the bound allows for "
+                            "HiGHS's tolerance")
+        sol = Solution(str(status), sold.sum(axis=1), running, res.objective, bound,
+                       np.asarray(res.duals, dtype=float), strategy, qp_method=res.method,
+                       option_scale=np.zeros(0), offset=self.offset, made=made, sold=sold)
+        sol.messages = messages
+        return sol

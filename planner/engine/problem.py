@@ -13,6 +13,7 @@ import numpy as np
 
 from models.data import MixData
 from planner.engine.blocks import Blocks, OptionBlocks, ProductBlocks, Response
+from planner.engine.blocks.months import MonthBlocks
 
 
 class Problem:
@@ -20,7 +21,8 @@ class Problem:
 
     def __init__(self, d: MixData) -> None:
         self.d = d
-        self.products = ProductBlocks(d)
+        # products over several periods are one block each over the periods; else one block per product
+        self.products = ProductBlocks(d) if d.periods is None else MonthBlocks(d.periods)
         self.options = OptionBlocks(d)
         self.families: list[Blocks] = [self.products, self.options]
         self.capacity = np.asarray(d.capacity, dtype=float)

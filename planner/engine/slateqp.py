@@ -36,6 +36,10 @@ from planner.engine.kkt import polish
 from planner.engine.problem import Problem
 from planner.engine.settings import ASM_RETRY_UP_TO, IPM_FROM
 
+#: Largest rows × columns of a fixed-choice QP polished on its dense matrix (only QPs with a family's own
+#: rows reach it: the shared rows are few).
+POLISH_DENSE_UP_TO = 40_000_000
+
 
 @dataclass
 class SlateResult:
@@ -80,6 +84,7 @@ def assemble(p: Problem, choice: np.ndarray) -> _QP:
     cs, qs, los, his, rs, ks, vs = [], [], [], [], [], [], []
     cap = p.capacity.astype(float).copy()
     constant = 0.0
+    local_rows, local_cap = [], []
     for f, z in zip(p.families, p.split(choice)):
         col = f.continuous(z)
         parts.append((at, col))
@@ -88,7 +93,16 @@ def assemble(p: Problem, choice: np.ndarray) -> _QP:
         constant += col.constant
         if col.capacity is not None:
             cap += col.capacity
+        if col.local is not None:  # a family's own rows, after the shared ones (not priced by λ)
+            count, row_of, lcols, lamt, upper = col.local
+            local_rows.append((row_of, lcols + at, lamt))
+            local_cap.append((count, upper))
         at += col.size
+    next_row = p.m
+    for (row_of, lcols, lamt), (count, upper) in zip(local_rows, local_cap):
+        rs.append(np.asarray(row_of, np.int64) + next_row), ks.append(lcols), vs.append(lamt)
+        cap = np.r_[cap, np.asarray(upper, float)]
+        next_row += count
     cat = np.concatenate
     return _QP(cat(cs), cat(qs), cat(los), cat(his), cat(rs).astype(np.int64), cat(ks).astype(np.int64),
                cat(vs).astype(float), cap, constant, parts)
@@ -148,6 +162,8 @@ def _solve_once(p: Problem, qp: _QP, choice: np.ndarray, time_limit: float | Non
     sol = h.getSolution()
     x = np.clip(np.asarray(sol.col_value, dtype=float), qp.lo, qp.hi)
     duals = np.maximum(-np.asarray(sol.row_dual, dtype=float), 0.0) if m else np.zeros(0)
+    if m * n > POLISH_DENSE_UP_TO:  # the polish works on the dense matrix: HiGHS's own answer beyond this
+        return _result(p, qp, x, duals, "optimal", t0, method, choice)
     H = qp.dense()
     exact = polish(qp.c, qp.q, H, qp.cap, qp.lo, qp.hi, _from_duals(qp, H, x, duals), duals)
     if exact is None:
@@ -183,7 +199,7 @@ def _result(p: Problem, qp: _QP, x: np.ndarray, duals: np.ndarray, status: str, 
         v[col.index] = x[at:at + col.size]
         values.append(v)
     objective = float(qp.c @ x - qp.q @ (x * x) + qp.constant) if x.size else float(qp.constant)
-    return SlateResult(status, values, objective, np.asarray(duals, dtype=float), time.perf_counter() - t0,
+    return SlateResult(status, values, objective, np.asarray(duals, dtype=float)[:p.m], time.perf_counter() - t0,
                        method, choice=choice)
 
 

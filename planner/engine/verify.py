@@ -12,6 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from models.data import MixData
+from models.periods import PeriodData
 from planner.engine.settings import LIMIT_TOL, ZERO_VOLUME
 from planner.errors import SolverError
 
@@ -46,3 +47,35 @@ def check_plan(d: MixData, volume: np.ndarray, running: np.ndarray, option_scale
     if bad:
         raise SolverError("the solved plan breaks a limit, so no plan is reported (try --solver scip): "
                           + "; ".join(bad))
+
+
+def clean_period_volumes(x: np.ndarray, pd: PeriodData) -> np.ndarray:
+    """(n × T) amounts with solver noise below ``ZERO_VOLUME`` of the product's largest sales bound set to 0."""
+    v = np.asarray(x, dtype=float).copy()
+    hi = pd.sales_upper()
+    top = np.max(np.where(np.isfinite(hi), hi, 1.0), axis=1, initial=1.0)
+    v[np.abs(v) <= ZERO_VOLUME * np.maximum(top, 1.0)[:, None]] = 0.0
+    return v
+
+
+def check_period_plan(pd: PeriodData, made: np.ndarray, sold: np.ndarray, running: np.ndarray,
+                      rel_tol: float = LIMIT_TOL) -> None:
+    """Raise SolverError naming every limit a plan over periods breaks: capacity per period, stock ≥ 0,
+    final stock, sales caps and commitments, making by a stopped product."""
+    bad = []
+    used = pd.used(made, sold)
+    stock = pd.stock(made, sold)
+    tol = lambda x: rel_tol * np.maximum(np.abs(x), 1.0)  # noqa: E731
+    for r, t in zip(*np.nonzero(used > pd.capacity + tol(pd.capacity))):
+        bad.append(f"{pd.resources[r]} in {pd.periods[t]}: uses {used[r, t]:.9g} of {pd.capacity[r, t]:.9g}")
+    size = np.maximum(np.max(np.abs(np.c_[made, sold]), axis=1, initial=0.0), pd.initial)  # the product's scale
+    for i, t in zip(*np.nonzero(stock < -tol(size)[:, None])):
+        bad.append(f"product {i + 1} in {pd.periods[t]}: stock {stock[i, t]:.9g} is negative")
+    for i in np.flatnonzero(stock[:, -1] < pd.final - tol(size)):
+        bad.append(f"product {i + 1}: final stock {stock[i, -1]:.9g} is below {pd.final[i]:.9g}")
+    for i, t in zip(*np.nonzero((sold > pd.hi + tol(pd.hi)) | (sold < pd.lo - tol(pd.lo)))):
+        bad.append(f"product {i + 1} in {pd.periods[t]}: sells {sold[i, t]:.9g} outside its limits")
+    for i in np.flatnonzero(~np.asarray(running, dtype=bool) & (np.abs(made).sum(axis=1) > 0)):
+        bad.append(f"product {i + 1} is shut down but makes {made[i].sum():.9g}")
+    if bad:
+        raise SolverError("the solved plan breaks limits: " + "; ".join(bad[:5]) + " (please report this)")

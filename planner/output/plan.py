@@ -7,6 +7,7 @@ profit gained per extra unit of capacity (currency per resource unit, ≥ 0).
 
 from __future__ import annotations
 
+import copy
 import json
 import platform
 from dataclasses import dataclass, field, fields
@@ -111,6 +112,10 @@ class Plan:
             "note": LABOUR_NOTE,
         }
         out.update(self.extras)
+        if "periods" in self.extras:  # a plan over several periods: the months beside each product and resource
+            from planner.output.period_json import period_json
+
+            out = period_json(copy.deepcopy(out))
         return out
 
     def to_json(self) -> str:

@@ -196,6 +196,13 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True,
         con.print(f"[dim]… the {MAX_ROWS} most profitable of {len(p.products):,} products shown "
                   f"({running:,} running, {len(p.products) - running:,} shut down); every product is in --json "
                   "and the report.[/]")
+    if "periods" in p.extras:  # a plan over several periods: the months, compactly
+        from planner.output.periods import months_tables
+
+        standalone = False  # (the standalone economics are one period's view: in --json only)
+        for t in months_tables(p, con):
+            con.print()
+            con.print(t)
     if p.plant_fixed_cost:
         con.print(f"Plant-wide fixed cost: {money(p.plant_fixed_cost, p.currency)}")
     con.print()

@@ -5,12 +5,18 @@ from __future__ import annotations
 import numpy as np
 
 from models.data import MixData
+from models.periods import PeriodData
 
+from planner.scenario.periods import per_period
 from planner.scenario.schema import Scenario
 
 
 def mix_data(s: Scenario, extra_capacity: dict[str, float] | None = None) -> MixData:
     """Arrays in product and resource order; ``extra_capacity`` adds to named resources."""
+    if s.periods is not None:
+        if extra_capacity:
+            raise ValueError("extra capacity is not supported with periods")
+        return period_mix_data(period_data(s), tuple(p.name for p in s.products))
     res_index = {r.name: k for k, r in enumerate(s.resources)}
     P = s.products
     rows, cols, vals = [], [], []
@@ -38,3 +44,62 @@ def mix_data(s: Scenario, extra_capacity: dict[str, float] | None = None) -> Mix
         use_res=np.array(rows, dtype=np.int64), use_prod=np.array(cols, dtype=np.int64),
         use_amt=np.array(vals, dtype=float), capacity=capacity,
     )
+
+
+def period_data(s: Scenario) -> PeriodData:
+    """The per-period arrays of a scenario with ``periods`` (a number given once repeats in every period)."""
+    T = len(s.periods)
+    P, Rs = s.products, s.resources
+    res_index = {r.name: k for k, r in enumerate(Rs)}
+
+    def each(field: str, none: float = 0.0) -> np.ndarray:
+        out = np.zeros((len(P), T))
+        for i, p in enumerate(P):
+            v = getattr(p, field)
+            out[i] = none if v is None else per_period(v, T)
+        return out
+
+    def dense(field: str) -> np.ndarray:
+        out = np.zeros((len(P), len(Rs)))
+        for i, p in enumerate(P):
+            for res, amt in getattr(p, field).items():
+                out[i, res_index[res]] = float(amt)
+        return out
+
+    return PeriodData(
+        periods=tuple(s.periods), resources=tuple(r.name for r in Rs),
+        a=each("price_intercept"), b=each("price_slope"), v=each("unit_cost"), lo=each("min_volume"),
+        hi=each("max_volume", np.inf), hold=each("holding_cost"),
+        F=np.array([p.fixed_cost for p in P], dtype=float),
+        initial=np.array([p.initial_stock for p in P], dtype=float),
+        final=np.array([p.final_stock for p in P], dtype=float),
+        must_run=np.array([p.must_run for p in P], dtype=bool),
+        usage=dense("usage"), stock_usage=dense("stock_usage"),
+        capacity=np.array([per_period(r.capacity, T) for r in Rs], dtype=float).reshape(len(Rs), T))
+
+
+def period_mix_data(pd: PeriodData, products: tuple[str, ...]) -> MixData:
+    """The MixData the engine carries for a scenario over periods: its rows are the (resource, period) pairs.
+
+    Its per-product arrays only bound the multipliers and the fallback's choice (the block family reads
+    ``periods``): price a = the highest intercept (no unit of any row is worth more than that over its use),
+    unit cost 0, no slope, cap the horizon's sales bound; a product whose commitments and final stock
+    its initial stock cannot cover must run.
+    """
+    n, T = pd.n, pd.T
+    rows, cols, vals = [], [], []
+    for r in range(pd.R):
+        for i in range(n):
+            amt = max(pd.usage[i, r], pd.stock_usage[i, r])
+            if amt > 0:
+                rows += [pd.row(r, t) for t in range(T)]
+                cols += [i] * T
+                vals += [float(amt)] * T
+    hi = pd.sales_upper().sum(axis=1) + pd.final
+    return MixData(
+        products=tuple(products),
+        resources=tuple(f"{r} ({t})" for r in pd.resources for t in pd.periods),
+        a=pd.a.max(axis=1), b=np.zeros(n), v=np.zeros(n), F=pd.F.copy(), committed=np.zeros(n),
+        min_run=np.zeros(n), cap=hi, must_run=pd.must_run | ~pd.can_stop_alone(),
+        use_res=np.array(rows, dtype=np.int64), use_prod=np.array(cols, dtype=np.int64),
+        use_amt=np.array(vals, dtype=float), capacity=pd.capacity.ravel().astype(float), periods=pd)

@@ -18,7 +18,7 @@ from planner.errors import Problem
 from planner.scenario.names import did_you_mean, shown
 from planner.scenario.numbers import SIZE_FIXES, Unusable
 from planner.scenario.rawdict import clean_name, entries
-from planner.scenario.schema import Change, Correlation, Option, Product, Resource, Scenario, Uncertainty, Variant
+from planner.scenario.schema import PER_PERIOD_TAGS, Change, Correlation, Option, Product, Resource, Scenario, Uncertainty, Variant
 from planner.scenario.units import amount_hint
 
 FIELDS = {
@@ -128,7 +128,7 @@ def pydantic_problems(raw: dict[str, Any], err: ValidationError) -> list[Problem
     problems = []
     skip: set[str] = set()
     for e in err.errors(include_url=False):
-        loc = tuple(e["loc"])
+        loc = tuple(x for x in e["loc"] if x not in PER_PERIOD_TAGS)  # a per-period value's form is no place
         kind = e["type"]
         got = e.get("input")
         if kind == "unusable" or isinstance(got, Unusable):
@@ -143,6 +143,10 @@ def pydantic_problems(raw: dict[str, Any], err: ValidationError) -> list[Problem
                 problems.append(Problem(where, f"names must be text (got {show(loc[-2])})", f"quote it: '{loc[-2]}'"))
             continue
         where = where_of(raw, loc)
+        periods = raw.get("periods")
+        if (len(loc) == 4 and loc[0] in ("products", "resources") and isinstance(loc[3], int)
+                and isinstance(periods, list) and 0 <= loc[3] < len(periods) and isinstance(periods[loc[3]], str)):
+            where = f"{where_of(raw, loc[:3])} in {periods[loc[3]]}"  # one number of a per-period list
         if where in skip:
             continue
         if kind == "extra_forbidden":

@@ -14,15 +14,15 @@ default, ``period`` names it).
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from typing import Annotated, Literal, Union
 
-from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, Field
+from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, Discriminator, Field, Tag
 
 from pydantic_core import PydanticCustomError
 
 from planner.scenario.numbers import MAX_MAGNITUDE, MIN_MAGNITUDE, Unusable, read_number, size_problem
 
-__all__ = ["MAX_MAGNITUDE", "MIN_MAGNITUDE"]
+__all__ = ["MAX_MAGNITUDE", "MIN_MAGNITUDE", "PER_PERIOD_TAGS"]
 
 
 def _finite(x: float) -> float:
@@ -75,6 +75,12 @@ Count = Annotated[int, BeforeValidator(_as_count), Field(ge=0, le=int(MAX_MAGNIT
 """A whole number >= 0 (a count of observations)."""
 Name = Annotated[str, Field(min_length=1, max_length=200)]
 
+#: The two forms of a per-period value (tags of its union, left out of problem locations).
+PER_PERIOD_TAGS = ("one", "each")
+PerPeriod = Annotated[Union[Annotated[NonNegative, Tag("one")], Annotated[list[NonNegative], Tag("each")]],
+                      Discriminator(lambda v: "each" if isinstance(v, (list, tuple)) else "one")]
+"""A number ≥ 0 for every period, or (with the scenario's ``periods``) one number ≥ 0 per period, in order."""
+
 
 class _Strict(BaseModel):
     # use_attribute_docstrings: each field's docstring is its description (the workbook's notes read it)
@@ -110,17 +116,17 @@ class Product(_Strict):
 
     name: Name
     """Unique name, used in every report and in ``usage`` keys of options."""
-    price_intercept: NonNegative
+    price_intercept: PerPeriod
     """Price at which demand falls to zero (currency per unit)."""
-    price_slope: NonNegative = 0.0
+    price_slope: PerPeriod = 0.0
     """Price drop per extra unit sold (currency per unit²); 0 means a fixed price."""
-    unit_cost: NonNegative
+    unit_cost: PerPeriod
     """Variable cost per unit made (currency per unit)."""
     fixed_cost: NonNegative = 0.0
     """Cost per period avoided only by shutting the product down (currency)."""
-    max_volume: NonNegative | None = None
+    max_volume: PerPeriod | None = None
     """Market or contract cap on volume (units per period); none if omitted."""
-    min_volume: NonNegative = 0.0
+    min_volume: PerPeriod = 0.0
     """Committed volume that must be made (units per period); > 0 forces it to run."""
     min_run: NonNegative = 0.0
     """Smallest volume worth setting up for when the product runs (units); it may still be shut down."""
@@ -133,14 +139,28 @@ class Product(_Strict):
     description: str = ""
     demand_fit: DemandFit | None = None
     """Uncertainty of the line when it was fitted from history (see ``planner fit-demand``)."""
+    setup_cost: PerPeriod = 0.0
+    """With ``periods``: cost paid in each period in which the product is made (currency per period)."""
+    setup_time: dict[Name, NonNegative] = Field(default_factory=dict)
+    """With ``periods``: capacity of each named resource used in each period in which the product is made
+    (resource units per period)."""
+    holding_cost: PerPeriod = 0.0
+    """With ``periods``: cost per unit in stock at the end of a period (currency per unit per period)."""
+    initial_stock: NonNegative = 0.0
+    """With ``periods``: units on hand at the start of the first period (may be sold even if it does not run)."""
+    final_stock: NonNegative = 0.0
+    """With ``periods``: at least this many units in stock at the end of the last period (units)."""
+    stock_usage: dict[Name, NonNegative] = Field(default_factory=dict)
+    """With ``periods``: amount of each named resource used per unit in stock at a period's end
+    (resource unit per product unit)."""
 
 
 class Resource(_Strict):
     """A shared limit: a work centre's hours or a material's supply."""
 
     name: Name
-    capacity: NonNegative
-    """Amount available in the period (in ``unit``)."""
+    capacity: PerPeriod
+    """Amount available in the period (in ``unit``); with ``periods``, a number or one per period."""
     unit: str = ""
     """Unit of the capacity: h, kg, m² ... (text, for reports and unit checks)."""
     kind: Literal["work_centre", "material", "other"] = "other"
@@ -259,6 +279,8 @@ class Scenario(_Strict):
     uncertainty: list[Uncertainty] = Field(default_factory=list)
     correlations: list[Correlation] = Field(default_factory=list)
     variants: list[Variant] = Field(default_factory=list)
+    periods: list[Name] | None = None
+    """Names of the planning periods, in order (e.g. months); omitted: one period (``period``)."""
 
     def product(self, name: str) -> Product:
         """The product called ``name`` (KeyError if none)."""

@@ -20,6 +20,7 @@ from planner.scenario.demand import expand_demand
 from planner.scenario.messages import FIELDS, label, pydantic_problems, where_of
 from planner.scenario.names import bad_character, character_problem, did_you_mean, how_alike, name_key, shown
 from planner.scenario.numbers import Unusable
+from planner.scenario.periods import period_problems
 from planner.scenario.rawdict import clean_name, indexed, number
 from planner.scenario.schema import Scenario
 from planner.scenario.uncertain import uncertainty_problems
@@ -186,7 +187,7 @@ def _cross_problems(raw: dict[str, Any]) -> list[Problem]:
                     if clean_name(res) is not None and res.strip() not in resources:
                         hint = did_you_mean(str(res), resources) or "name a resource defined under resources"
                         problems.append(Problem(f"{at}.{key}.{res}", "names a resource that is not defined", hint))
-    problems += uncertainty_problems(raw) + variant_problems(raw)
+    problems += uncertainty_problems(raw) + variant_problems(raw) + period_problems(raw)
     return problems
 
 
@@ -208,7 +209,7 @@ def _size_problems(raw: dict[str, Any]) -> list[Problem]:
 def scenario_warnings(s: Scenario) -> list[str]:
     """Legal but probably unintended things, for the user to see."""
     warnings = []
-    zero = {r.name: [] for r in s.resources if r.capacity == 0}
+    zero = {r.name: [] for r in s.resources if not isinstance(r.capacity, list) and r.capacity == 0}
     for p in (s.products if zero else []):
         for res, amount in p.usage.items():
             if res in zero and amount > 0:
@@ -224,7 +225,7 @@ def scenario_warnings(s: Scenario) -> list[str]:
                     warnings.append(f"products[{p.name}]: its min_run {p.min_run:g} needs {amount * p.min_run:g} "
                                     f"of {res}, which has {capacity[res]:g}: it can never run")
                     break
-    for p in s.products:
+    for p in (s.products if s.periods is None else ()):  # (per-period values: no single comparison)
         if p.price_intercept <= p.unit_cost and p.min_volume == 0 and not p.must_run:
             warnings.append(
                 f"products[{p.name}]: price_intercept {p.price_intercept:g} <= unit_cost {p.unit_cost:g}: "

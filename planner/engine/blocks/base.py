@@ -100,6 +100,9 @@ class Columns:
     constant: float = 0.0
     capacity: np.ndarray | None = None  # (m,) added to the shared rows, or None
     index: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))  # the family's variable of each column
+    #: Rows of the family's own (not priced by λ): (count, row_of, local column, amount, upper), each
+    #: Σ amount·x ≤ upper; None if it has none (e.g. the stock rows of products over periods).
+    local: tuple | None = None
 
     @property
     def size(self) -> int:
