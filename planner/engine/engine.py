@@ -60,6 +60,7 @@ class Solution:
     multipliers: np.ndarray | None = None  # currency per resource unit: the best Lagrangian λ met
     multipliers_tried: list = field(default_factory=list)  # λ's worth a warm start next time
     offset: float = 0.0  # currency: the plant-wide fixed cost, subtracted before the gap is measured
+    bought: np.ndarray | None = None  # units bought in per product (of ``volume``, the sales); None: none may be
 
     @property
     def gap(self) -> float:
@@ -207,11 +208,14 @@ class Engine:
                     strategy: str) -> Solution:
         mu = self.scales.money
         parts = p.split(res.choice)
-        volume = clean_volumes(self.scales.volumes(res.values[0]), d)
+        volume = clean_volumes(self.scales.volumes(res.values[0][:d.n]), d)
+        bought = None
+        if np.any(d.buy_max > 0):
+            bought = np.minimum(clean_volumes(self.scales.volumes(p.products.bought(res.values[0])), d), volume)
         running = p.products.running(parts[0])
         scale = p.options.scale_of(res.values[1], parts[1]) if d.n_options else np.zeros(0)
-        check_plan(d, volume, running, scale)
+        check_plan(d, volume, running, scale, bought=bought)
         objective = res.objective * mu
         return Solution(str(status), volume, running, objective, max(bound * mu, objective),
                         self.scales.prices_out(res.duals), strategy, qp_method=res.method, option_scale=scale,
-                        offset=self.offset)
+                        offset=self.offset, bought=bought)

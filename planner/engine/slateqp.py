@@ -9,6 +9,9 @@ convex QP
     \max \sum_j c_j x_j - q_j x_j^2 + K \quad\text{s.t.}\quad
     \sum_j h_{rj} x_j \le H_r + \Delta_r \;(\text{dual } \lambda_r \ge 0),\qquad lo_j \le x_j \le hi_j
 
+plus each family's own rows (``Columns.local``, e.g. units bought in ≤ units
+sold), laid after the shared rows; their duals are not reported
+
 (for products: x the running volumes, q the price slopes, K minus the fixed
 costs; for options usable in part: x the scale, c minus the cost, h minus the
 amounts; Δ the amounts of the all-or-nothing options taken).  Columns of
@@ -80,6 +83,7 @@ def assemble(p: Problem, choice: np.ndarray) -> _QP:
     cs, qs, los, his, rs, ks, vs = [], [], [], [], [], [], []
     cap = p.capacity.astype(float).copy()
     constant = 0.0
+    local_cap, row_at = [], cap.size
     for f, z in zip(p.families, p.split(choice)):
         col = f.continuous(z)
         parts.append((at, col))
@@ -88,10 +92,15 @@ def assemble(p: Problem, choice: np.ndarray) -> _QP:
         constant += col.constant
         if col.capacity is not None:
             cap += col.capacity
+        if col.local is not None:  # the family's own rows go after the shared ones
+            count, row_of, lcols, amounts, upper = col.local
+            rs.append(np.asarray(row_of, np.int64) + row_at), ks.append(np.asarray(lcols, np.int64) + at)
+            vs.append(np.asarray(amounts, float)), local_cap.append(np.asarray(upper, float))
+            row_at += int(count)
         at += col.size
     cat = np.concatenate
     return _QP(cat(cs), cat(qs), cat(los), cat(his), cat(rs).astype(np.int64), cat(ks).astype(np.int64),
-               cat(vs).astype(float), cap, constant, parts)
+               cat(vs).astype(float), cat([cap] + local_cap), constant, parts)
 
 
 def solve_choice(p: Problem, choice: np.ndarray, time_limit: float | None = None, threads: int = 1,
@@ -183,7 +192,7 @@ def _result(p: Problem, qp: _QP, x: np.ndarray, duals: np.ndarray, status: str, 
         v[col.index] = x[at:at + col.size]
         values.append(v)
     objective = float(qp.c @ x - qp.q @ (x * x) + qp.constant) if x.size else float(qp.constant)
-    return SlateResult(status, values, objective, np.asarray(duals, dtype=float), time.perf_counter() - t0,
+    return SlateResult(status, values, objective, np.asarray(duals, dtype=float)[:p.m], time.perf_counter() - t0,
                        method, choice=choice)
 
 

@@ -27,7 +27,7 @@ from typing import Any
 
 import numpy as np
 
-from models.data import MixData, committed_floor
+from models.data import MixData, committed_made
 
 from planner.engine.infeasible import explain
 from planner.errors import ScenarioError, Problem
@@ -187,7 +187,7 @@ def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, step
     unit = s.resources[r].unit
     start = float(d.capacity[r]) if start is None else float(start)
     lo, hi = min(start, stop), max(start, stop)
-    need = float(d.used(committed_floor(d))[r])
+    need = float(d.used(committed_made(d))[r])
     if lo < need - 1e-9 * max(need, 1.0) or lo < 0:
         raise ScenarioError([Problem(f"--from {lo:,.6g}", f"the sweep of {resource} starts below what the committed "
                                      f"and minimum volumes need ({need:,.6g} {unit})",

@@ -74,6 +74,9 @@ class Columns:
     constant: float = 0.0
     capacity: np.ndarray | None = None  # (m,) added to the shared rows, or None
     index: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))  # the family's variable of each column
+    #: the family's own rows Σ amount·x ≤ upper over its columns: (count, row of each entry, local column,
+    #: amount, (count,) upper), or None (e.g. a product's units bought in B − D ≤ 0)
+    local: tuple | None = None
 
     @property
     def size(self) -> int:
