@@ -148,3 +148,12 @@ def test_buy_max_negative_is_refused():
     with pytest.raises(ScenarioError) as e:
         validate_scenario(raw)
     assert "buy_max" in str(e.value) and math.isfinite(1.0)
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_model_of_record_with_buy_in(seed):
+    """--solver scip solves the model of record (models/mix.py, with bought[i]); SCIP from the raw numbers agrees."""
+    raw = scenario(seed)
+    sc, _ = validate_scenario(raw)
+    got = plan(sc, rel_gap=1e-7, solver="scip")
+    assert got.profit == pytest.approx(scip_profit(raw), rel=1e-5, abs=1e-3)
