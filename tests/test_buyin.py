@@ -157,3 +157,20 @@ def test_model_of_record_with_buy_in(seed):
     sc, _ = validate_scenario(raw)
     got = plan(sc, rel_gap=1e-7, solver="scip")
     assert got.profit == pytest.approx(scip_profit(raw), rel=1e-5, abs=1e-3)
+
+
+def test_analyses_say_they_do_not_follow_buy_in(tmp_path):
+    """Until the parametric fixed-slate QP has bought-in columns, ranges and sweeps decline with a message."""
+    from click.testing import CliRunner
+    import yaml
+
+    from planner.cli.main import main
+
+    f = tmp_path / "s.yaml"
+    f.write_text(yaml.safe_dump(scenario(2)))
+    out = CliRunner().invoke(main, ["plan", str(f)])
+    assert out.exit_code == 0
+    assert "do not yet follow products that buy in" in " ".join(out.output.split())
+    out = CliRunner().invoke(main, ["sweep", str(f), "--resource", "r0", "--to", "400"])
+    assert out.exit_code == 2
+    assert "products.buy_max: a capacity sweep does not yet follow products that buy in" in out.output

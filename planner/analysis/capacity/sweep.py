@@ -183,6 +183,9 @@ def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, step
         hint = did_you_mean(resource, names) or f"choose one of: {', '.join(names)}"
         raise ScenarioError([Problem(f"--resource {resource}", "is not a resource of the scenario", hint)])
     d = mix_data(s)
+    if np.any(d.buy_max > 0):
+        raise ScenarioError([Problem("products.buy_max", "a capacity sweep does not yet follow products that "
+                                     "buy in", "plan each capacity with planner plan, or set buy_max to 0")])
     r = names.index(resource)
     unit = s.resources[r].unit
     start = float(d.capacity[r]) if start is None else float(start)
