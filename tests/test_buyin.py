@@ -174,3 +174,12 @@ def test_analyses_say_they_do_not_follow_buy_in(tmp_path):
     out = CliRunner().invoke(main, ["sweep", str(f), "--resource", "r0", "--to", "400"])
     assert out.exit_code == 2
     assert "products.buy_max: a capacity sweep does not yet follow products that buy in" in out.output
+
+
+def test_risk_declines_buy_in():
+    from planner.analysis.risk.run import run_risk
+
+    sc, _ = validate_scenario(scenario(2))
+    with pytest.raises(ScenarioError) as e:
+        run_risk(sc, samples=10)
+    assert "products.buy_max: planner risk does not yet follow products that buy in" in str(e.value)
