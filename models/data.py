@@ -16,7 +16,16 @@ h_ri        usage of resource r per unit of product i, ≥ 0        resource uni
 H_r         capacity of resource r                                 resource unit
 A_ro        amount option o adds to resource r at full scale      resource unit
 c_o         cost of option o at full scale                         currency
+β_i         unit cost of a unit bought in (buy-in), ≥ 0           currency / unit
+Q_i         most units that may be bought in (0: none)             units
 ==========  =====================================================  =================
+
+Buy-in (optional; Q_i = 0 by default): product i sells D_i = made + bought,
+0 ≤ bought_i ≤ Q_i ≤ D_i; bought units cost β_i each and use no resource.
+Every volume limit (L_i, M_i, C_i) and the fixed cost F_i belong to the
+product's sales D_i: buying needs the product to run, and its fixed cost is
+paid whenever anything is sold.  The tight bound on sales counts the units
+that may be bought beyond what the resources allow to be made.
 
 Capacity options (optional; none by default): option o adds s_o·A_ro to each
 capacity for a cost c_o·s_o, with s_o ∈ {0, 1} for an all-or-nothing option
@@ -62,7 +71,10 @@ class MixData:
     opt_cost: np.ndarray | None = None  # currency at full scale
     opt_whole: np.ndarray | None = None  # True: all or nothing; False: usable in part
     periods: "PeriodData | None" = None  # several periods (models.periods): the rows are (resource, period) pairs
+    buy_cost: np.ndarray | None = None  # β_i, currency per unit bought in (0 where none may be bought)
+    buy_max: np.ndarray | None = None  # Q_i, units (0: nothing may be bought)
     upper: np.ndarray = field(init=False)
+    make_upper: np.ndarray = field(init=False)
     qp_upper: np.ndarray = field(init=False)
     can_stop: np.ndarray = field(init=False)
 
@@ -74,8 +86,13 @@ class MixData:
             object.__setattr__(self, "opt_cost", np.zeros(k))
         if self.opt_whole is None:
             object.__setattr__(self, "opt_whole", np.ones(k, dtype=bool))
+        if self.buy_max is None:
+            object.__setattr__(self, "buy_max", np.zeros(len(self.products)))
+        if self.buy_cost is None:
+            object.__setattr__(self, "buy_cost", np.zeros(len(self.products)))
         peak = peak_bound(self)
-        object.__setattr__(self, "upper", tight_upper(self, peak))
+        object.__setattr__(self, "make_upper", tight_upper(self, peak_bound(self, selling=False)))
+        object.__setattr__(self, "upper", sell_upper(self, self.make_upper, peak))
         object.__setattr__(self, "qp_upper", np.minimum(self.cap, peak))
         stop = ~self.must_run & ((self.F > 0) | (self.min_run > 0))
         object.__setattr__(self, "can_stop", stop)
@@ -123,7 +140,7 @@ class MixData:
         return MixData(self.products, self.resources, self.a, self.b, self.v, self.F, self.committed,
                        self.min_run, self.cap, self.must_run, self.use_res, self.use_prod, self.use_amt,
                        np.asarray(capacity, dtype=float), self.options, self.opt_amount, self.opt_cost,
-                       self.opt_whole)
+                       self.opt_whole, self.buy_cost, self.buy_max)
 
     def with_options(self, keep: np.ndarray) -> "MixData":
         """The same data offering only the options where ``keep`` is True."""
@@ -131,7 +148,8 @@ class MixData:
         return MixData(self.products, self.resources, self.a, self.b, self.v, self.F, self.committed,
                        self.min_run, self.cap, self.must_run, self.use_res, self.use_prod, self.use_amt,
                        self.capacity, tuple(o for o, k in zip(self.options, keep) if k),
-                       self.opt_amount[keep], self.opt_cost[keep], self.opt_whole[keep])
+                       self.opt_amount[keep], self.opt_cost[keep], self.opt_whole[keep], self.buy_cost,
+                       self.buy_max)
 
     def with_whole_taken(self, taken: np.ndarray) -> "MixData":
         """All-or-nothing options decided: taken ones added to capacity, all of them removed.
@@ -150,32 +168,48 @@ class MixData:
         return float(self.opt_cost[taken].sum())
 
 
-def peak_bound(d: MixData) -> np.ndarray:
-    """max(L_i, M_i, (a_i − v_i)/(2 b_i)) for b_i > 0; 0 if a fixed price never pays; else inf (units).
+def peak_bound(d: MixData, selling: bool = True) -> np.ndarray:
+    """max(L_i, M_i, (a_i − w_i)/(2 b_i)) for b_i > 0; 0 if a fixed price never pays; else inf (units).
 
-    No optimal plan makes more: beyond the peak of its contribution a product
-    loses money on each extra unit and uses more of every resource.  Unlike
-    the resource-derived bounds, this bound never takes a capacity's dual.
+    w_i is the cheapest unit cost of supply: v_i, or min(v_i, β_i) for sales
+    where units may be bought in (``selling``; with ``selling=False`` the bound
+    on the units made, w_i = v_i).  No optimal plan sells (makes) more: beyond
+    the peak a product loses money on each extra unit and uses more of every
+    resource.  Unlike the resource-derived bounds, this bound never takes a
+    capacity's dual.
     """
     floor = np.maximum(d.committed, d.min_run)
+    margin = d.a - np.where(d.buy_max > 0, np.minimum(d.v, d.buy_cost), d.v) if selling else d.margin
     with np.errstate(divide="ignore", invalid="ignore"):
-        peak = np.where(d.b > 0, d.margin / (2 * np.where(d.b > 0, d.b, 1.0)), np.inf)
-    peak = np.where((d.b == 0) & (d.margin <= 0), 0.0, peak)
+        peak = np.where(d.b > 0, margin / (2 * np.where(d.b > 0, d.b, 1.0)), np.inf)
+    peak = np.where((d.b == 0) & (margin <= 0), 0.0, peak)
     return np.maximum(floor, np.maximum(peak, 0.0))
 
 
 def committed_floor(d: MixData) -> np.ndarray:
-    """Volume every plan must make: max(L_i, M_i) for products that must run, else 0 (units)."""
+    """Volume every plan must sell: max(L_i, M_i) for products that must run, else 0 (units)."""
     return np.where(d.must_run, np.maximum(d.committed, d.min_run), 0.0)
 
 
+def committed_made(d: MixData) -> np.ndarray:
+    """Volume every plan must make: the committed floor less what may be bought in, ≥ 0 (units)."""
+    return np.maximum(committed_floor(d) - d.buy_max, 0.0)
+
+
+def sell_upper(d: MixData, make_upper: np.ndarray, peak: np.ndarray) -> np.ndarray:
+    """Upper bound on sales: min(C_i, peak of sales, U_i made + Q_i) (units); the made bound where Q_i = 0."""
+    out = np.minimum(np.minimum(d.cap, peak), make_upper + d.buy_max)
+    return np.where(d.buy_max > 0, np.maximum(out, 0.0), make_upper)
+
+
 def tight_upper(d: MixData, peak: np.ndarray | None = None) -> np.ndarray:
-    """Upper bound U_i on each volume that no optimal plan exceeds (units).
+    """Upper bound U_i on each volume made that no optimal plan exceeds (units).
 
     U_i = min( C_i,
                min over r with h_ri > 0 of (H_r − Σ_{j≠i} h_rj·B_j) / h_ri,
                max(L_i, M_i, (a_i − v_i)/(2 b_i)) if b_i > 0 ).
-    where H_r counts every capacity option taken in full, and B_j is the committed floor of product j (see ``committed_floor``).
+    where H_r counts every capacity option taken in full, and B_j is the volume product j must make
+    (see ``committed_made``: its committed floor less what it may buy in).
     The last term holds because beyond the peak of the contribution, more
     volume lowers profit and uses more of every resource.  If (a − v) ≤ 0 and
     nothing is committed the bound is 0: the product never pays.
@@ -184,7 +218,7 @@ def tight_upper(d: MixData, peak: np.ndarray | None = None) -> np.ndarray:
     """
     n = d.n
     upper = d.cap.astype(float).copy()
-    base = committed_floor(d)
+    base = committed_made(d)
     committed_use = d.used(base)
     pos = d.use_amt > 0
     r, i, h = d.use_res[pos], d.use_prod[pos], d.use_amt[pos]
@@ -192,7 +226,7 @@ def tight_upper(d: MixData, peak: np.ndarray | None = None) -> np.ndarray:
     res_bound = np.full(n, np.inf)
     np.minimum.at(res_bound, i, room)
     upper = np.minimum(upper, res_bound)
-    upper = np.minimum(upper, peak_bound(d) if peak is None else peak)
+    upper = np.minimum(upper, peak_bound(d, selling=False) if peak is None else peak)
     return np.maximum(upper, 0.0)
 
 

@@ -20,6 +20,17 @@ all-or-nothing option, s_o ∈ [0, 1] for one usable in part:
     \max \; \ldots - \sum_o c_o s_o, \qquad
     \text{capacity}_r: \; \sum_i h_{ri} D_i - \sum_o A_{ro} s_o \le H_r
 
+With buy-in (products with Q_i > 0; none by default), ``bought[i]`` B_i
+units of the sales D_i are bought in at β_i each and use no resource:
+
+.. math::
+
+    \max \; \ldots - \sum_i (\beta_i - v_i) B_i, \qquad
+    \text{capacity}_r: \; \sum_i h_{ri} (D_i - B_i) - \ldots \le H_r, \qquad
+    \text{bought\_in\_sales}_i: \; B_i \le D_i, \quad 0 \le B_i \le Q_i
+
+(so D_i − B_i are the units made, and B_i = 0 when the product stops).
+
 Revenue a·D − b·D² is the price–demand line p = a − b·D times volume; the
 price follows from the volume.  With ``slate`` given, y is fixed data (the
 model is then a convex QP with bounds only, no integer columns: HiGHS keeps a
@@ -81,6 +92,24 @@ def add_volumes(m: pyo.ConcreteModel, d: MixData, slate: Sequence[bool] | None, 
     return [m.running[p] if d.can_stop[k] else 1 for k, p in enumerate(d.products)]
 
 
+def add_bought(m: pyo.ConcreteModel, d: MixData) -> None:
+    """bought[i] ∈ [0, Q_i] with bought_in_sales[i]: B_i ≤ D_i, for products that may buy in (nothing if none)."""
+    buyers = [p for k, p in enumerate(d.products) if d.buy_max[k] > 0]
+    if not buyers:
+        return
+    idx = {p: k for k, p in enumerate(d.products)}
+    m.B = pyo.Set(initialize=buyers, ordered=True)
+    m.bought = pyo.Var(m.B, domain=pyo.NonNegativeReals, bounds=lambda m, p: (0.0, float(d.buy_max[idx[p]])))
+    m.bought_in_sales = pyo.Constraint(m.B, rule=lambda m, p: m.bought[p] <= m.volume[p])
+
+
+def read_bought(m: pyo.ConcreteModel, d: MixData) -> np.ndarray:
+    """Units bought in per product (0 where none may be bought or unset)."""
+    if not hasattr(m, "B"):
+        return np.zeros(d.n)
+    return np.array([(m.bought[p].value or 0.0) if p in m.B else 0.0 for p in d.products], dtype=float)
+
+
 def add_options(m: pyo.ConcreteModel, d: MixData, slate: Sequence[bool] | None, integer: bool) -> None:
     """option_scale[o] ∈ {0, 1} (all or nothing) or [0, 1] (usable in part); nothing if no options."""
     if not d.n_options:
@@ -109,6 +138,10 @@ def add_capacity(m: pyo.ConcreteModel, d: MixData) -> None:
     for r, name in enumerate(d.resources):
         prods, amts = cols[r]
         coefs, varlist = [float(x) for x in amts], [vol[k] for k in prods]
+        for k, h in zip(prods, amts):
+            if d.buy_max[k] > 0:
+                coefs.append(-float(h))
+                varlist.append(m.bought[d.products[k]])
         for k, o in enumerate(d.options):
             if d.opt_amount[k, r] != 0:
                 coefs.append(-float(d.opt_amount[k, r]))
@@ -122,6 +155,7 @@ def build_mix_model(d: MixData, slate: Sequence[bool] | None = None, integer: bo
     """The mixed-integer QP (or, with ``slate``, the fixed-slate QP) as a Pyomo model."""
     m = pyo.ConcreteModel(name="product_mix")
     y = add_volumes(m, d, slate, integer)
+    add_bought(m, d)
     add_options(m, d, slate, integer)
     add_capacity(m, d)
     margin, b, F = d.margin, d.b, d.F
@@ -137,6 +171,9 @@ def build_mix_model(d: MixData, slate: Sequence[bool] | None = None, integer: bo
     m.fixed_in_slate = pyo.Param(initialize=const, mutable=False)
     if d.n_options:
         terms.append(-option_cost(m, d))
+    for p in (m.B if hasattr(m, "B") else ()):
+        k = d.products.index(p)
+        terms.append(-float(d.buy_cost[k] - d.v[k]) * m.bought[p])
     m.profit = pyo.Objective(expr=pyo.quicksum(terms) - const, sense=pyo.maximize)
     return m
 

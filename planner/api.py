@@ -97,7 +97,8 @@ def build_plan(s: Scenario, d: MixData, sol: Solution, warnings: list[str] | Non
                 "threads": threads, "random_seed": seed, "messages": sol.messages, "versions": solver_versions()}
         return period_plan(s, d, sol, info, list(warnings or []))
     vol = np.asarray(sol.volume, dtype=float)
-    check_plan(d, vol, sol.running, sol.option_scale)
+    bought = None if sol.bought is None else np.asarray(sol.bought, dtype=float)
+    check_plan(d, vol, sol.running, sol.option_scale, bought=bought)
     econ = standalone(d.a, d.b, d.v, d.F, d.cap)
     products = []
     for k, p in enumerate(s.products):
@@ -105,14 +106,16 @@ def build_plan(s: Scenario, d: MixData, sol: Solution, warnings: list[str] | Non
         running = bool(sol.running[k]) if d.can_stop[k] else bool(d.must_run[k]) or D > 0
         price = float(d.a[k] - d.b[k] * D)
         revenue = price * D
-        var_cost = float(d.v[k]) * D
+        B = 0.0 if bought is None else float(bought[k])
+        var_cost = float(d.v[k]) * (D - B) + float(d.buy_cost[k]) * B
         fixed = float(d.F[k]) if (running or d.must_run[k]) else 0.0
         products.append(ProductPlan(
             name=p.name, running=running, volume=D, price=price, revenue=revenue, variable_cost=var_cost,
             contribution=revenue - var_cost, fixed_cost=fixed, profit=revenue - var_cost - fixed,
             unit=p.unit, standalone=econ[k], must_run=bool(d.must_run[k]),
-            forced="must_run" if p.must_run else ("min_volume" if p.min_volume > 0 else "")))
-    used = d.used(vol)
+            forced="must_run" if p.must_run else ("min_volume" if p.min_volume > 0 else ""),
+            bought=None if bought is None or d.buy_max[k] <= 0 else B))
+    used = d.used(vol if bought is None else vol - bought)
     value = capacity_value(sol.duals, d.capacity)
     resources = []
     for r, res in enumerate(s.resources):

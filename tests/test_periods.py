@@ -343,3 +343,17 @@ def test_cli_infeasible_names_the_month(tmp_path):
     res = CliRunner().invoke(main, ["plan", str(path)])
     assert res.exit_code == 3
     assert "press in Feb: the committed sales and final stock need 100 h more than its capacity 300" in res.stderr
+
+
+def test_buying_in_with_periods_is_refused_by_name(tmp_path):
+    """Buying in is planned for one period only: with periods it is refused, naming the product and field."""
+    f = tmp_path / "s.yaml"
+    f.write_text("name: t\nperiods: [Jan, Feb]\nproducts:\n"
+                 "  - {name: shelf, price_intercept: 100, price_slope: 0.1, unit_cost: 30, buy_cost: 50,"
+                 " buy_max: 10, usage: {press: 1}}\nresources:\n  - {name: press, capacity: 100}\n")
+    from click.testing import CliRunner
+
+    from planner.cli.main import main
+    out = CliRunner().invoke(main, ["plan", str(f)])
+    assert out.exit_code == 2
+    assert "products[shelf].buy_max: buying in is not supported with periods yet" in out.output

@@ -108,7 +108,7 @@ def check_sweep(s, resource: str, start: float | None, stop: float) -> float:
     - a low end below what the commitments need of the swept resource: exit 2 with the smallest
       valid value.
     """
-    from models.data import committed_floor
+    from models.data import committed_made
 
     from planner.engine.infeasible import conflicts, explain
     from planner.errors import InfeasibleError, Problem, ScenarioError
@@ -122,7 +122,7 @@ def check_sweep(s, resource: str, start: float | None, stop: float) -> float:
     d = mix_data(s)
     r = names.index(resource)
     unit = f" {s.resources[r].unit}" if s.resources[r].unit else ""
-    need = float(d.used(committed_floor(d))[r])
+    need = float(d.used(committed_made(d))[r])
     others = d.capacity.copy()
     others[r] = max(float(others[r]), need)  # the swept resource can always be given enough
     try:

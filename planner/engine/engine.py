@@ -62,6 +62,7 @@ class Solution:
     offset: float = 0.0  # currency: the plant-wide fixed cost, subtracted before the gap is measured
     made: np.ndarray | None = None  # with periods: (n × T) units made per product and period
     sold: np.ndarray | None = None  # with periods: (n × T) units sold per product and period
+    bought: np.ndarray | None = None  # units bought in per product (of ``volume``, the sales); None: none may be
 
     @property
     def gap(self) -> float:
@@ -216,14 +217,17 @@ class Engine:
         parts = p.split(res.choice)
         if d.periods is not None:
             return self._from_periods(d, p, res, bound, status, strategy)
-        volume = clean_volumes(self.scales.volumes(res.values[0]), d)
+        volume = clean_volumes(self.scales.volumes(res.values[0][:d.n]), d)
+        bought = None
+        if np.any(d.buy_max > 0):
+            bought = np.minimum(clean_volumes(self.scales.volumes(p.products.bought(res.values[0])), d), volume)
         running = p.products.running(parts[0])
         scale = p.options.scale_of(res.values[1], parts[1]) if d.n_options else np.zeros(0)
-        check_plan(d, volume, running, scale)
+        check_plan(d, volume, running, scale, bought=bought)
         objective = res.objective * mu
         return Solution(str(status), volume, running, objective, max(bound * mu, objective),
                         self.scales.prices_out(res.duals), strategy, qp_method=res.method, option_scale=scale,
-                        offset=self.offset)
+                        offset=self.offset, bought=bought)
 
     def _from_periods(self, d: MixData, p: Problem, res: SlateResult, bound: float, status: str,
                       strategy: str) -> Solution:

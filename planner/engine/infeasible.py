@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from models.data import MixData, committed_floor
+from models.data import MixData, committed_floor, committed_made
 
 from planner.engine import highs
 from planner.errors import InfeasibleError, SolverError
@@ -53,7 +53,7 @@ def _floor_reason(s: Scenario, k: int, floor: float) -> str:
 
 def short_resources(d: MixData) -> list[int]:
     """Indices of the resources that the committed floors alone overload."""
-    need = d.used(committed_floor(d))
+    need = d.used(committed_made(d))
     return [r for r in range(len(d.resources)) if need[r] > d.capacity[r] * (1 + FIT_TOL) + FIT_TOL]
 
 
@@ -101,7 +101,7 @@ def smallest_cuts(d: MixData) -> dict[str, tuple[float, float]]:
 
 def check_commitments(d: MixData, unit_of: dict[str, str] | None = None) -> None:
     """Raise InfeasibleError naming each resource whose commitments exceed its capacity."""
-    need = d.used(committed_floor(d))
+    need = d.used(committed_made(d))
     have = d.capacity_reach  # with every capacity option taken in full
     conflicts = []
     for r, name in enumerate(d.resources):
@@ -121,7 +121,7 @@ def explain(s: Scenario, d: MixData) -> None:
     found = conflicts(s, d)
     if not found:
         return
-    need = d.used(committed_floor(d))
+    need = d.used(committed_made(d))
     adds = []
     for r in short_resources(d):
         res = s.resources[r]

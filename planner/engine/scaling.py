@@ -88,7 +88,8 @@ class Scales:
         return replace(d, a=d.a * s / mu, b=d.b * s * s / mu, v=d.v * s / mu, F=d.F / mu,
                        committed=d.committed / s, min_run=d.min_run / s, cap=d.cap / s,
                        use_amt=d.use_amt * s[d.use_prod] / r[d.use_res], capacity=d.capacity / r,
-                       opt_amount=d.opt_amount / r[None, :], opt_cost=d.opt_cost / mu)
+                       opt_amount=d.opt_amount / r[None, :], opt_cost=d.opt_cost / mu,
+                       buy_cost=d.buy_cost * s / mu, buy_max=d.buy_max / s)
 
     def volumes(self, x: np.ndarray) -> np.ndarray:
         """Scaled volumes in the scenario's units."""

@@ -9,6 +9,9 @@ convex QP
     \max \sum_j c_j x_j - q_j x_j^2 + K \quad\text{s.t.}\quad
     \sum_j h_{rj} x_j \le H_r + \Delta_r \;(\text{dual } \lambda_r \ge 0),\qquad lo_j \le x_j \le hi_j
 
+plus each family's own rows (``Columns.local``, e.g. units bought in ≤ units
+sold), laid after the shared rows; their duals are not reported
+
 (for products: x the running volumes, q the price slopes, K minus the fixed
 costs; for options usable in part: x the scale, c minus the cost, h minus the
 amounts; Δ the amounts of the all-or-nothing options taken).  Columns of

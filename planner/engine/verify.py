@@ -25,11 +25,15 @@ def clean_volumes(volume: np.ndarray, d: MixData) -> np.ndarray:
 
 
 def check_plan(d: MixData, volume: np.ndarray, running: np.ndarray, option_scale: np.ndarray | None = None,
-               rel_tol: float = LIMIT_TOL) -> None:
-    """Raise SolverError naming every limit the solved plan breaks beyond ``rel_tol``."""
+               rel_tol: float = LIMIT_TOL, bought: np.ndarray | None = None) -> None:
+    """Raise SolverError naming every limit the solved plan breaks beyond ``rel_tol``.
+
+    ``volume`` is what is sold; ``bought`` (units bought in, or None) uses no resource.
+    """
     scale = np.zeros(d.n_options) if option_scale is None or not np.size(option_scale) else np.asarray(option_scale)
     cap = d.capacity + scale @ d.opt_amount if d.n_options else d.capacity
-    used = d.used(np.asarray(volume, dtype=float))
+    made = np.asarray(volume, dtype=float) - (0.0 if bought is None else np.asarray(bought, dtype=float))
+    used = d.used(made)
     for r in np.flatnonzero(used > cap + rel_tol * np.maximum(np.abs(cap), 1.0)):
         raise SolverError(f"the solved plan uses {used[r]:.9g} of {d.resources[r]} but it has {cap[r]:.9g}: "
                           "the solver's answer breaks a limit, so no plan is reported (try --solver scip)")
@@ -42,6 +46,9 @@ def check_plan(d: MixData, volume: np.ndarray, running: np.ndarray, option_scale
         bad.append(f"{d.products[k]} at {volume[k]:.9g} is below its floor {floor[k]:.9g}")
     for k in np.flatnonzero(~runs & (volume > 0)):
         bad.append(f"{d.products[k]} is shut down but has volume {volume[k]:.9g}")
+    if bought is not None:
+        for k in np.flatnonzero((bought < -rel_tol) | (bought > d.buy_max * (1 + rel_tol) + rel_tol)):
+            bad.append(f"{d.products[k]} buys in {bought[k]:.9g} units, outside 0..{d.buy_max[k]:.9g}")
     if np.any(scale < -rel_tol) or np.any(scale > 1 + rel_tol):
         bad.append("an option's scale is outside 0..1")
     if bad:

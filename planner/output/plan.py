@@ -35,6 +35,7 @@ class ProductPlan:
     standalone: Standalone
     must_run: bool = False  # may not be shut down: its must_run, or a committed min_volume
     forced: str = ""  # why it may not be shut down: "must_run", "min_volume" (a commitment), "" if it may
+    bought: float | None = None  # units of ``volume`` bought in (variable_cost counts them at buy_cost); None: no buy-in
 
     @property
     def sold_price(self) -> float | None:
@@ -45,6 +46,8 @@ class ProductPlan:
         d = {f: getattr(self, f) for f in _PRODUCT_FIELDS}
         d["price"] = self.sold_price
         d["standalone"] = self.standalone.to_dict()
+        if self.bought is not None:
+            d["bought"] = self.bought
         return d
 
 
@@ -141,7 +144,7 @@ class Plan:
             else pd.DataFrame(columns=["capacity", "used", "utilisation", "shadow_price", "binding", "unit"])
 
 
-_PRODUCT_FIELDS = [f.name for f in fields(ProductPlan) if f.name != "standalone"]
+_PRODUCT_FIELDS = [f.name for f in fields(ProductPlan) if f.name not in ("standalone", "bought")]
 _RESOURCE_FIELDS = [f.name for f in fields(ResourcePlan)]
 
 

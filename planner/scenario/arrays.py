@@ -43,6 +43,7 @@ def mix_data(s: Scenario, extra_capacity: dict[str, float] | None = None) -> Mix
         must_run=np.array([p.must_run for p in P], dtype=bool) | (committed > 0),
         use_res=np.array(rows, dtype=np.int64), use_prod=np.array(cols, dtype=np.int64),
         use_amt=np.array(vals, dtype=float), capacity=capacity,
+        buy_cost=np.array([p.buy_cost or 0.0 for p in P], dtype=float), buy_max=arr("buy_max"),
     )
 
 

@@ -93,6 +93,10 @@ def period_problems(raw: dict[str, Any]) -> list[Problem]:
         if _used(p.get("min_run")):
             problems.append(Problem(f"{at}.min_run", "is not supported with periods yet",
                                     "remove min_run, or plan one period at a time"))
+        for f in ("buy_cost", "buy_max"):
+            if _used(p.get(f)):
+                problems.append(Problem(f"{at}.{f}", "buying in is not supported with periods yet",
+                                        f"remove {f}, or plan one period at a time"))
         for f in ("setup_cost", "setup_time"):
             if _used(p.get(f)):
                 problems.append(Problem(f"{at}.{f}", "setup costs and times are not planned yet",

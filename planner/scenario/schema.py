@@ -134,6 +134,12 @@ class Product(_Strict):
     """True if the product may not be shut down this period (its fixed cost is then unavoidable)."""
     usage: dict[Name, NonNegative] = Field(default_factory=dict)
     """Amount of each resource used per unit made (resource unit per product unit)."""
+    buy_cost: NonNegative | None = None
+    """Cost of one unit bought in or subcontracted instead of made (currency per unit); needed with buy_max."""
+    buy_max: NonNegative = 0.0
+    """Most units that may be bought in per period (units; 0: none).  Bought units use no resource and are
+    sold like made units: min_volume, max_volume and min_run count sales, and buying needs the product to
+    run (its fixed_cost belongs to selling it)."""
     unit: str = "units"
     """Unit in which volumes are counted (text, for reports)."""
     description: str = ""

@@ -158,6 +158,9 @@ def _cross_problems(raw: dict[str, Any]) -> list[Problem]:
         slope = number(p.get("price_slope", 0.0))
         tidy = set(p) <= FIELDS["products"] and (not isinstance(usage, dict) or all(
             isinstance(k, str) and k.strip() in resources for k in usage))  # else its own problem explains
+        if (number(p.get("buy_max")) or 0) > 0 and p.get("buy_cost") is None:
+            problems.append(Problem(f"{at}.buy_cost", "buy_max is set but buy_cost is missing",
+                                    "give the cost per unit bought in, or remove buy_max"))
         if tidy and slope == 0 and p.get("max_volume") is None:
             used = isinstance(usage, dict) and any((number(v) or 0) > 0 and str(k) in resources
                                                    for k, v in usage.items())

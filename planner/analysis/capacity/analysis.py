@@ -58,6 +58,9 @@ def add_capacity_analysis(p: Plan, s: Scenario, choose: bool = False, rel_gap: f
 def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float | None,
              hard: float | None) -> Plan:
     d = mix_data(s)
+    if np.any(d.buy_max > 0):  # the fixed-slate parametric QP of the ranges has no bought-in columns yet
+        raise PlannerError("shadow-price ranges and option values do not yet follow products that buy in "
+                           "(buy_max); the plan and its shadow prices stand")
     engine = engine_for(s, d)
     slate = plan_slate(p, d.can_stop)
     qp = engine.slate(slate)

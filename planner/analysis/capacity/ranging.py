@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from models.data import MixData, committed_floor, tight_upper
+from models.data import MixData, committed_made, tight_upper
 
 from planner.engine import Engine
 from planner.analysis.capacity.parametric import Degenerate, SlateQP, classify, is_kkt, piece_at
@@ -81,7 +81,7 @@ def resource_ranges(d: MixData, slate: np.ndarray, rel_gap: float = 1e-6,
     slate = np.asarray(slate, dtype=bool)
     engine = engine or Engine(d)
     R = len(d.resources)
-    need = d.used(committed_floor(d))
+    need = d.used(committed_made(d))
     paths, pieces, ends = [], [], []
     start = _start(engine, d, slate)  # one solve serves every direction
     for r in range(R):

@@ -27,7 +27,7 @@ from typing import Any
 
 import numpy as np
 
-from models.data import MixData, committed_floor
+from models.data import MixData, committed_made
 
 from planner.engine.infeasible import explain
 from planner.errors import ScenarioError, Problem
@@ -183,11 +183,14 @@ def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, step
         hint = did_you_mean(resource, names) or f"choose one of: {', '.join(names)}"
         raise ScenarioError([Problem(f"--resource {resource}", "is not a resource of the scenario", hint)])
     d = mix_data(s)
+    if np.any(d.buy_max > 0):
+        raise ScenarioError([Problem("products.buy_max", "a capacity sweep does not yet follow products that "
+                                     "buy in", "plan each capacity with planner plan, or set buy_max to 0")])
     r = names.index(resource)
     unit = s.resources[r].unit
     start = float(d.capacity[r]) if start is None else float(start)
     lo, hi = min(start, stop), max(start, stop)
-    need = float(d.used(committed_floor(d))[r])
+    need = float(d.used(committed_made(d))[r])
     if lo < need - 1e-9 * max(need, 1.0) or lo < 0:
         raise ScenarioError([Problem(f"--from {lo:,.6g}", f"the sweep of {resource} starts below what the committed "
                                      f"and minimum volumes need ({need:,.6g} {unit})",

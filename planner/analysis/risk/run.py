@@ -26,7 +26,7 @@ import numpy as np
 
 from models.data import MixData
 
-from planner.errors import EXIT_BAD_INPUT, InfeasibleError, PlannerError, SolverError
+from planner.errors import EXIT_BAD_INPUT, InfeasibleError, PlannerError, Problem, ScenarioError, SolverError
 from planner.output.plan import Plan
 from planner.scenario.arrays import mix_data
 from planner.scenario.schema import Scenario
@@ -172,6 +172,9 @@ def run_risk(scenario: Scenario | str | Path, samples: int = 1000, seed: int = 0
     if not isinstance(scenario, Scenario):
         scenario, _ = load_scenario(scenario)
     base = mix_data(scenario)
+    if np.any(base.buy_max > 0):  # evaluate.py prices a plan's use of resources from its sales alone
+        raise ScenarioError([Problem("products.buy_max", "planner risk does not yet follow products that buy in",
+                                     "set buy_max to 0 for the risk run, or plan the samples one by one")])
     point = make_plan(scenario, rel_gap=rel_gap)
     draws = draw_samples(scenario, samples, seed)
     arrays = sample_arrays(base, draws)

@@ -23,6 +23,21 @@ and y_i, the links D ≤ U·y and D ≥ floor·y, and the perspective tangent cu
 
 at chosen points D̄, valid for y = 0 and y = 1 alike (Frangioni & Gentile
 2006, Math. Programming 106).
+
+Buy-in (``MixData.buy_max`` Q_i > 0): the product sells D_i and buys in
+B_i of them, 0 ≤ B_i ≤ Q_i, B_i ≤ D_i, at β_i per unit; the made units
+D_i − B_i use the shared rows.  Written in (D, B) the profit is
+
+.. math::  g_i(D_i) - (\beta_i - v_i) B_i,\qquad \text{use } h_{ri}(D_i - B_i),
+
+so the contribution g_i and its tangent cuts are unchanged; B_i is a linear
+column (negative use of the shared rows: it replaces made units) with the
+block's own row B_i − D_i ≤ 0.  The family's variables are D (n) then B (one
+per product that may buy, in product order).  Priced at λ, the supply cost of
+D is convex piecewise linear: the cheaper source first (β_i for up to Q_i
+units, c_i = v_i + (Hᵀλ)_i for up to the made bound), so the best response is
+the concave 1-D maximiser found on the first segment or, if it reaches that
+segment's end, on the second, then clipped to the sales bounds — exact.
 """
 
 from __future__ import annotations
@@ -51,6 +66,28 @@ def priced_usage(d: MixData, lam: np.ndarray) -> np.ndarray:
     return np.bincount(d.use_prod, weights=d.use_amt * lam[d.use_res], minlength=d.n)
 
 
+def buy_response(a: np.ndarray, b: np.ndarray, make: np.ndarray, make_hi: np.ndarray, buy: np.ndarray,
+                 buy_hi: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(sales, bought) maximising a·D − b·D² − make·M − buy·B over M + B = D, 0 ≤ M ≤ make_hi,
+    0 ≤ B ≤ buy_hi, lo ≤ D ≤ hi (per product; currency per unit, units).
+
+    The supply cost of D is convex piecewise linear (the cheaper source first), so
+    the objective is concave in D: its maximiser on the first segment, or on the
+    second if it reaches the first segment's end, clipped to [lo, hi].
+    """
+    buy_first = buy <= make
+    c1, k1 = np.where(buy_first, buy, make), np.where(buy_first, buy_hi, make_hi)
+    c2, k2 = np.where(buy_first, make, buy), np.where(buy_first, make_hi, buy_hi)
+    top = k1 + k2
+    D1 = best_response(a - c1, b, np.zeros_like(a), k1)
+    D2 = best_response(a - c2, b, k1, top)
+    D = np.where(D1 >= k1, D2, D1)
+    D = np.clip(D, lo, np.minimum(hi, top))
+    first = np.minimum(D, k1)
+    bought = np.where(buy_first, first, D - first)
+    return D, bought
+
+
 class ProductBlocks(Blocks):
     """Every product of ``d`` as a block; its choices are the products with a real on/off choice."""
 
@@ -63,6 +100,11 @@ class ProductBlocks(Blocks):
         self.floor = d.run_floor
         self.reachable = self.floor <= d.upper * (1 + 1e-12) + 1e-12
         self.hi = np.maximum(d.upper, self.floor)
+        self.buyers = np.flatnonzero(d.buy_max > 0)  # products that may buy in, product order
+        self.forced = self.buyers.size == 0  # choice_terms and curvature know nothing of buying in
+        self.buy_pos = np.full(d.n, -1, dtype=np.int64)
+        self.buy_pos[self.buyers] = np.arange(self.buyers.size)
+        self.reachable &= self.floor <= (d.make_upper + d.buy_max) * (1 + 1e-12) + 1e-12
 
     @property
     def n_choices(self) -> int:
@@ -70,7 +112,17 @@ class ProductBlocks(Blocks):
 
     @property
     def n_vars(self) -> int:
-        return self.d.n
+        return self.d.n + int(self.buyers.size)
+
+    def bought(self, x: np.ndarray) -> np.ndarray:
+        """(n,) units bought in, from the family's variables ``x`` (0 where nothing may be bought)."""
+        out = np.zeros(self.d.n)
+        out[self.buyers] = np.asarray(x, dtype=float)[self.d.n:]
+        return out
+
+    def made(self, x: np.ndarray) -> np.ndarray:
+        """(n,) units made: sales less units bought in."""
+        return np.asarray(x, dtype=float)[:self.d.n] - self.bought(x)
 
     def running(self, choice: np.ndarray) -> np.ndarray:
         """(n,) bool: the products that run under ``choice`` (those without a choice always do)."""
@@ -84,9 +136,17 @@ class ProductBlocks(Blocks):
 
     def respond(self, lam: np.ndarray, choice: np.ndarray | None = None) -> Response:
         d = self.d
-        c = d.margin - priced_usage(d, lam)
+        priced = priced_usage(d, lam)
+        c = d.margin - priced
         D = best_response(c, d.b, self.floor, self.hi)
         run_value = c * D - d.b * D * D - d.F
+        B = np.zeros(d.n)
+        k = self.buyers
+        if k.size:
+            Dk, B[k] = buy_response(d.a[k], d.b[k], d.v[k] + priced[k], d.make_upper[k], d.buy_cost[k],
+                                    d.buy_max[k], self.floor[k], self.hi[k])
+            D[k] = Dk
+            run_value[k] = c[k] * Dk - d.b[k] * Dk * Dk + (d.a[k] - d.buy_cost[k] - c[k]) * B[k] - d.F[k]
         on = np.where(self.reachable, run_value, -np.inf)[self.free]
         off = np.zeros(self.free.size)
         run = np.ones(d.n, dtype=bool)
@@ -94,8 +154,9 @@ class ProductBlocks(Blocks):
         always = ~d.can_stop
         fixed = float(np.sum(run_value[always]))
         D = np.where(run, D, 0.0)
+        B = np.where(run, B, 0.0)
         value = fixed + float(np.sum(np.maximum(on, off) if choice is None else np.where(run[self.free], on, off)))
-        return Response(value, d.used(D), run[self.free], on, off, fixed, D)
+        return Response(value, d.used(D - B), run[self.free], on, off, fixed, np.r_[D, B[k]])
 
     def dense_usage(self) -> np.ndarray | None:
         """(n × m) usage h_ri by product, or None beyond ``DENSE_USAGE_UP_TO`` entries."""
@@ -150,13 +211,29 @@ class ProductBlocks(Blocks):
         pos = np.full(d.n, -1, dtype=np.int64)
         pos[cols] = np.arange(cols.size)
         keep = (pos[d.use_prod] >= 0) & (d.use_amt != 0)
-        return Columns(c=d.margin[cols], q=d.b[cols], lo=self.floor[cols], hi=d.qp_upper[cols],
-                       rows=d.use_res[keep], cols=pos[d.use_prod[keep]], amounts=d.use_amt[keep],
-                       constant=-float(np.sum(d.F[run])), index=cols)
+        rows, where, amounts = d.use_res[keep], pos[d.use_prod[keep]], d.use_amt[keep]
+        k = self.buyers[run[self.buyers]]
+        if not k.size:
+            return Columns(c=d.margin[cols], q=d.b[cols], lo=self.floor[cols], hi=d.qp_upper[cols],
+                           rows=rows, cols=where, amounts=amounts, constant=-float(np.sum(d.F[run])), index=cols)
+        bpos = np.full(d.n, -1, dtype=np.int64)
+        bpos[k] = cols.size + np.arange(k.size)
+        bk = (bpos[d.use_prod] >= 0) & (d.use_amt != 0)
+        j = np.arange(k.size)
+        return Columns(c=np.r_[d.margin[cols], d.v[k] - d.buy_cost[k]], q=np.r_[d.b[cols], np.zeros(k.size)],
+                       lo=np.r_[self.floor[cols], np.zeros(k.size)], hi=np.r_[d.qp_upper[cols], d.buy_max[k]],
+                       rows=np.r_[rows, d.use_res[bk]], cols=np.r_[where, bpos[d.use_prod[bk]]],
+                       amounts=np.r_[amounts, -d.use_amt[bk]], constant=-float(np.sum(d.F[run])),
+                       index=np.r_[cols, d.n + self.buy_pos[k]],
+                       local=(k.size, np.r_[j, j], np.r_[bpos[k], pos[k]], np.r_[np.ones(k.size), -np.ones(k.size)],
+                              np.zeros(k.size)))
 
     def profit(self, x: np.ndarray, choice: np.ndarray) -> float:
+        d = self.d
         run = self.running(choice)
-        return float(np.sum(self.d.contribution(np.where(run, x, 0.0))) - np.sum(self.d.F[run]))
+        B = np.where(run, self.bought(x), 0.0)
+        return float(np.sum(d.contribution(np.where(run, x[:d.n], 0.0))) - np.sum(d.F[run])
+                     - np.sum((d.buy_cost - d.v) * B))
 
     def feasible(self, choice: np.ndarray) -> bool:
         return bool(np.all(self.reachable[self.running(choice)]))
@@ -181,6 +258,15 @@ class ProductBlocks(Blocks):
         g = free[self.floor[free] > 0]
         milp.rows(g.size, np.r_[np.arange(g.size), np.arange(g.size)], np.r_[self.Dcol[g], self.ycol[g]],
                   np.r_[np.ones(g.size), -self.floor[g]], np.zeros(g.size), np.full(g.size, INF))
+        # buy-in: B_i in [0, Q_i] at (β − v) per unit beyond making, frees h_ri per unit; B_i − D_i ≤ 0
+        kb = self.buyers
+        self.Bcol = milp.columns(d.v[kb] - d.buy_cost[kb], np.zeros(kb.size), d.buy_max[kb])
+        if kb.size:
+            bu = (self.buy_pos[d.use_prod] >= 0) & keep
+            milp.use(d.use_res[bu], self.Bcol[self.buy_pos[d.use_prod[bu]]], -d.use_amt[bu])
+            j = np.arange(kb.size)
+            milp.rows(kb.size, np.r_[j, j], np.r_[self.Bcol, self.Dcol[kb]], np.r_[np.ones(kb.size), -np.ones(kb.size)],
+                      np.full(kb.size, -INF), np.zeros(kb.size))
         self.scale = np.maximum(np.abs(d.margin) * np.where(np.isfinite(d.upper), d.upper, 1.0), 1.0)
         self.ncuts = 0
         self._add_cuts(milp, *self.initial_points())
@@ -214,6 +300,10 @@ class ProductBlocks(Blocks):
         self.ncuts += int(k.size)
         return int(k.size)
 
+    def milp_values(self, x: np.ndarray) -> np.ndarray:
+        """The family's variables (sales, then units bought in) of a MILP solution."""
+        return np.r_[x[self.Dcol], x[self.Bcol]]
+
     def cuts(self, milp: MilpBuilder, x: np.ndarray) -> int:
         vol, t = x[self.Dcol], x[self.tcol]
         over = t - self.d.contribution(vol) > CUT_VIOLATION * self.scale
@@ -222,7 +312,7 @@ class ProductBlocks(Blocks):
     def cuts_at(self, milp: MilpBuilder, values: np.ndarray, choice: np.ndarray) -> int:
         d = self.d
         run = self.running(choice)
-        x = np.asarray(values, dtype=float)
+        x = np.asarray(values, dtype=float)[:d.n]
         # (a flat tangent at a product's peak is already among the first cuts)
         at = np.flatnonzero(run & (d.b > 0) & (x > 0) & (np.abs(d.margin - 2 * d.b * x) > 1e-9 * np.abs(d.margin)))
         return self._add_cuts(milp, at, x[at])
@@ -236,8 +326,10 @@ class ProductBlocks(Blocks):
 
     def milp_start(self, milp: MilpBuilder, values: np.ndarray, choice: np.ndarray) -> dict[int, float]:
         run = self.running(choice)
-        D = np.where(run, values, 0.0)
+        values = np.asarray(values, dtype=float)
+        D = np.where(run, values[:self.d.n], 0.0)
         out = dict(zip(self.Dcol.tolist(), D.tolist()))
+        out.update(zip(self.Bcol.tolist(), np.where(run, self.bought(values), 0.0)[self.buyers].tolist()))
         out.update(zip(self.tcol.tolist(), self.d.contribution(D).tolist()))
         out.update(zip(self.ycol[self.free].tolist(), np.asarray(choice, dtype=float).tolist()))
         return out
