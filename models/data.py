@@ -39,7 +39,7 @@ dual, and which products have a real on/off choice.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -70,9 +70,9 @@ class MixData:
     opt_amount: np.ndarray | None = None  # (options × resources), resource units at full scale
     opt_cost: np.ndarray | None = None  # currency at full scale
     opt_whole: np.ndarray | None = None  # True: all or nothing; False: usable in part
-    periods: "PeriodData | None" = None  # several periods (models.periods): the rows are (resource, period) pairs
     buy_cost: np.ndarray | None = None  # β_i, currency per unit bought in (0 where none may be bought)
     buy_max: np.ndarray | None = None  # Q_i, units (0: nothing may be bought)
+    periods: "PeriodData | None" = None  # several periods (models.periods): the rows are (resource, period) pairs
     upper: np.ndarray = field(init=False)
     make_upper: np.ndarray = field(init=False)
     qp_upper: np.ndarray = field(init=False)
@@ -137,19 +137,14 @@ class MixData:
 
     def with_capacity(self, capacity: np.ndarray) -> "MixData":
         """The same data with other capacities (the bounds are recomputed)."""
-        return MixData(self.products, self.resources, self.a, self.b, self.v, self.F, self.committed,
-                       self.min_run, self.cap, self.must_run, self.use_res, self.use_prod, self.use_amt,
-                       np.asarray(capacity, dtype=float), self.options, self.opt_amount, self.opt_cost,
-                       self.opt_whole, self.buy_cost, self.buy_max)
+        return replace(self, capacity=np.asarray(capacity, dtype=float))  # every other field kept
 
     def with_options(self, keep: np.ndarray) -> "MixData":
         """The same data offering only the options where ``keep`` is True."""
         keep = np.asarray(keep, dtype=bool)
-        return MixData(self.products, self.resources, self.a, self.b, self.v, self.F, self.committed,
-                       self.min_run, self.cap, self.must_run, self.use_res, self.use_prod, self.use_amt,
-                       self.capacity, tuple(o for o, k in zip(self.options, keep) if k),
-                       self.opt_amount[keep], self.opt_cost[keep], self.opt_whole[keep], self.buy_cost,
-                       self.buy_max)
+        return replace(self, options=tuple(o for o, k in zip(self.options, keep) if k),
+                       opt_amount=self.opt_amount[keep], opt_cost=self.opt_cost[keep],
+                       opt_whole=self.opt_whole[keep])  # every other field kept
 
     def with_whole_taken(self, taken: np.ndarray) -> "MixData":
         """All-or-nothing options decided: taken ones added to capacity, all of them removed.
