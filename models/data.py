@@ -22,6 +22,13 @@ Capacity options (optional; none by default): option o adds s_o·A_ro to each
 capacity for a cost c_o·s_o, with s_o ∈ {0, 1} for an all-or-nothing option
 (a shift) and s_o ∈ [0, 1] for one usable in part (overtime, premium material).
 
+Product groups (optional; none by default): group g with fixed cost G_g is
+paid if any member runs (z_g ≥ y_i for each member i; a product may be in
+several groups).  Resources may carry their own fixed cost E_r; a closable
+resource is open (w_r = 1: capacity H_r, cost E_r) or closed (w_r = 0:
+capacity 0, nothing paid); a resource that cannot close always pays E_r.
+Members of a group with G_g > 0 get an on/off choice.
+
 Derived here, because they are part of the formulation: the upper bound U_i,
 as tight as every limit allows (for the on/off links of the MILP), a looser
 bound for the continuous QP that never competes with a capacity row for its
@@ -30,7 +37,7 @@ dual, and which products have a real on/off choice.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -57,6 +64,12 @@ class MixData:
     opt_amount: np.ndarray | None = None  # (options × resources), resource units at full scale
     opt_cost: np.ndarray | None = None  # currency at full scale
     opt_whole: np.ndarray | None = None  # True: all or nothing; False: usable in part
+    groups: tuple[str, ...] = ()  # product groups sharing a fixed cost
+    grp_cost: np.ndarray | None = None  # (groups,) currency, paid if any member runs
+    grp_idx: np.ndarray | None = None  # membership (COO): group of each entry
+    grp_prod: np.ndarray | None = None  # membership (COO): product of each entry
+    res_fixed: np.ndarray | None = None  # (resources,) currency: the resource's own fixed cost
+    res_closable: np.ndarray | None = None  # (resources,) bool: closing saves res_fixed, capacity then 0
     upper: np.ndarray = field(init=False)
     qp_upper: np.ndarray = field(init=False)
     can_stop: np.ndarray = field(init=False)
@@ -69,11 +82,35 @@ class MixData:
             object.__setattr__(self, "opt_cost", np.zeros(k))
         if self.opt_whole is None:
             object.__setattr__(self, "opt_whole", np.ones(k, dtype=bool))
+        g, m = len(self.groups), len(self.resources)
+        for name, default in (("grp_cost", np.zeros(g)), ("grp_idx", np.zeros(0, dtype=np.int64)),
+                              ("grp_prod", np.zeros(0, dtype=np.int64)), ("res_fixed", np.zeros(m)),
+                              ("res_closable", np.zeros(m, dtype=bool))):
+            if getattr(self, name) is None:
+                object.__setattr__(self, name, default)
         peak = peak_bound(self)
         object.__setattr__(self, "upper", tight_upper(self, peak))
         object.__setattr__(self, "qp_upper", np.minimum(self.cap, peak))
-        stop = ~self.must_run & ((self.F > 0) | (self.min_run > 0))
+        stop = ~self.must_run & ((self.F > 0) | (self.min_run > 0) | self.in_costly_group)
         object.__setattr__(self, "can_stop", stop)
+
+    @property
+    def in_costly_group(self) -> np.ndarray:
+        """(n,) bool: products in a group with a positive fixed cost (they get an on/off choice)."""
+        out = np.zeros(len(self.products), dtype=bool)
+        costly = self.grp_cost[self.grp_idx] > 0
+        out[self.grp_prod[costly]] = True
+        return out
+
+    @property
+    def n_groups(self) -> int:
+        return len(self.groups)
+
+    def group_members(self) -> np.ndarray:
+        """(groups × products) bool membership (dense; groups are few)."""
+        M = np.zeros((len(self.groups), len(self.products)), dtype=bool)
+        M[self.grp_idx, self.grp_prod] = True
+        return M
 
     @property
     def n(self) -> int:
@@ -115,18 +152,14 @@ class MixData:
 
     def with_capacity(self, capacity: np.ndarray) -> "MixData":
         """The same data with other capacities (the bounds are recomputed)."""
-        return MixData(self.products, self.resources, self.a, self.b, self.v, self.F, self.committed,
-                       self.min_run, self.cap, self.must_run, self.use_res, self.use_prod, self.use_amt,
-                       np.asarray(capacity, dtype=float), self.options, self.opt_amount, self.opt_cost,
-                       self.opt_whole)
+        return replace(self, capacity=np.asarray(capacity, dtype=float))
 
     def with_options(self, keep: np.ndarray) -> "MixData":
         """The same data offering only the options where ``keep`` is True."""
         keep = np.asarray(keep, dtype=bool)
-        return MixData(self.products, self.resources, self.a, self.b, self.v, self.F, self.committed,
-                       self.min_run, self.cap, self.must_run, self.use_res, self.use_prod, self.use_amt,
-                       self.capacity, tuple(o for o, k in zip(self.options, keep) if k),
-                       self.opt_amount[keep], self.opt_cost[keep], self.opt_whole[keep])
+        return replace(self, options=tuple(o for o, k in zip(self.options, keep) if k),
+                       opt_amount=self.opt_amount[keep], opt_cost=self.opt_cost[keep],
+                       opt_whole=self.opt_whole[keep])
 
     def with_whole_taken(self, taken: np.ndarray) -> "MixData":
         """All-or-nothing options decided: taken ones added to capacity, all of them removed.
