@@ -96,9 +96,10 @@ def _tighten(ub: np.ndarray, solved: np.ndarray, Y: np.ndarray, pt: DualPoint, p
     refused (bound −inf).
     """
     value, on, off = pt.sep if pt.sep is not None else (pt.value, pt.on, pt.off)
-    gain = on - off
-    bad = ~np.isfinite(gain)  # a choice that cannot be on
+    bad = ~np.isfinite(on)  # a choice that cannot be on
     never = ~np.isfinite(off)  # a choice that cannot be off
+    with np.errstate(invalid="ignore"):
+        gain = on - off
     const = value - float(np.sum(np.maximum(on, off))) + float(np.sum(np.where(never, on, off)))
     bound_all = const + Y @ np.where(bad | never, 0.0, gain)
     if never.any():
