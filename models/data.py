@@ -154,6 +154,19 @@ class MixData:
         """The same data with other capacities (the bounds are recomputed)."""
         return replace(self, capacity=np.asarray(capacity, dtype=float))
 
+    def with_closed(self, opened: np.ndarray | None) -> "MixData":
+        """The same data with the resources not ``opened`` (m,) closed for good: capacity 0, no longer
+        closable, their own fixed cost saved (0).  None or all open: the data itself.
+
+        Analyses of a plan re-solve this data, so no re-solve reopens a resource the plan closed.
+        """
+        if opened is None or np.all(opened):
+            return self
+        shut = ~np.asarray(opened, dtype=bool)
+        return replace(self, capacity=np.where(shut, 0.0, self.capacity),
+                       res_closable=np.asarray(self.res_closable, dtype=bool) & ~shut,
+                       res_fixed=np.where(shut, 0.0, self.res_fixed))
+
     def with_options(self, keep: np.ndarray) -> "MixData":
         """The same data offering only the options where ``keep`` is True."""
         keep = np.asarray(keep, dtype=bool)
