@@ -66,3 +66,122 @@ def test_ranges_of_a_plan_that_closes_a_resource_keep_it_closed():
         ref = held_closed(raw, "paint cell")
         ref["resources"][0]["capacity"] = h_in
         assert value(h_in) == pytest.approx(enumerate_best(ref), rel=1e-7, abs=1e-4)
+
+
+# --- per-product decisions -----------------------------------------------------------------------
+
+from planner.analysis.decisions import PRECISION, add_decision_analysis  # noqa: E402
+
+
+def random_small(seed: int, n: int = 5) -> dict:
+    """A small random scenario: a group, a closable resource with a fixed cost, products with fixed costs."""
+    rng = np.random.default_rng(1000 + seed)
+    res = [{"name": "r0", "capacity": float(rng.integers(60, 160)), "closable": True,
+            "fixed_cost": float(rng.integers(200, 2500))},
+           {"name": "r1", "capacity": float(rng.integers(60, 200))}]
+    prods = []
+    for i in range(n):
+        use = {"r1": float(rng.integers(1, 4))}
+        if rng.random() < 0.5:
+            use["r0"] = float(rng.integers(1, 3))
+        prods.append({"name": f"p{i}", "price_intercept": float(rng.integers(60, 160)),
+                      "price_slope": float(rng.uniform(0.1, 0.6)), "unit_cost": float(rng.integers(10, 50)),
+                      "fixed_cost": float(rng.integers(100, 1500)), "usage": use})
+    groups = [{"name": "g0", "products": ["p0", "p1"], "fixed_cost": float(rng.integers(200, 2000))}]
+    return {"name": f"decisions {seed}", "products": prods, "resources": res, "product_groups": groups}
+
+
+def without(raw: dict, name: str) -> dict:
+    """The raw scenario with product ``name`` stopped: removed, and from its groups (an empty group is never paid)."""
+    out = copy.deepcopy(raw)
+    out["products"] = [q for q in out["products"] if q["name"] != name]
+    groups = []
+    for g in out.get("product_groups", []):
+        g["products"] = [m for m in g["products"] if m != name]
+        if g["products"]:
+            groups.append(g)
+    out["product_groups"] = groups
+    return out
+
+
+def forced_on(raw: dict, name: str) -> dict:
+    out = copy.deepcopy(raw)
+    next(q for q in out["products"] if q["name"] == name)["must_run"] = True
+    return out
+
+
+def with_intercept(raw: dict, name: str, a: float) -> dict:
+    out = copy.deepcopy(raw)
+    next(q for q in out["products"] if q["name"] == name)["price_intercept"] = a
+    return out
+
+
+def reference_runs(raw: dict, name: str) -> bool:
+    """Does the optimum make ``name``? Enumeration with it and without it (highspy directly)."""
+    return enumerate_best(raw) > enumerate_best(without(raw, name)) + 1e-6
+
+
+def analysed(raw: dict, **kw):
+    s, _ = validate_scenario(raw)
+    p = plan(s, rel_gap=1e-9)
+    add_decision_analysis(p, s, rel_gap=1e-9, **kw)
+    return p
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_cost_of_reversal_matches_enumeration_with_the_decision_forced(seed):
+    raw = closing() if seed == 0 else random_small(seed)
+    p = analysed(raw)
+    best = enumerate_best(raw)
+    assert p.profit == pytest.approx(best, rel=1e-7, abs=1e-4)
+    seen = 0
+    for x in p.products:
+        e = x.decision
+        assert e["decision_checked"]
+        ref_forced = enumerate_best(without(raw, x.name) if x.running else forced_on(raw, x.name))
+        assert e["cost_of_reversal"] == pytest.approx(best - ref_forced, rel=1e-6, abs=1e-3)
+        assert e["cost_of_reversal"] >= 0
+        seen += 1
+    assert seen == len(raw["products"])
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_switch_intercept_flips_the_reference_decision_either_side(seed):
+    raw = closing() if seed == 0 else random_small(seed, n=4)
+    p = analysed(raw)
+    flips = 0
+    for x in p.products:
+        sw = x.decision["switch_intercept"]
+        if sw is None:
+            continue
+        a0 = next(q["price_intercept"] for q in raw["products"] if q["name"] == x.name)
+        half = max(PRECISION * abs(a0), 1.0)  # the stated bracket: the flip lies within half of it of sw
+        below = reference_runs(with_intercept(raw, x.name, sw - half), x.name)
+        above = reference_runs(with_intercept(raw, x.name, sw + half), x.name)
+        assert not below and above, (x.name, sw)
+        assert reference_runs(with_intercept(raw, x.name, a0), x.name) == x.running
+        flips += 1
+    assert flips >= 1
+
+
+def test_must_run_product_has_no_reversal_and_budget_zero_flags_every_product():
+    raw = closing()
+    raw["products"][0]["must_run"] = True
+    p = analysed(raw)
+    e = p.products[0].decision
+    assert e["cost_of_reversal"] is None and e["switch_intercept"] is None and e["decision_checked"]
+    assert "must_run" in e["decision_note"]
+    assert p.products[0].to_dict()["cost_of_reversal"] is None
+    q = analysed(closing(), budget=0.0)
+    assert all(x.decision["decision_checked"] is False for x in q.products)
+    assert all(x.decision["cost_of_reversal"] is None for x in q.products)
+    assert any("were not analysed" in w for w in q.warnings)
+
+
+def test_contribution_per_bottleneck_unit_by_hand():
+    # closing(): assembly binds (plain alone, 100 units at price 100 − 0.2·100 = 80, unit cost 20);
+    # gloss and rough stop: their first unit's price is the intercept.  Hand calculation.
+    p = analysed(closing())
+    per = {x.name: x.decision["contribution_per_bottleneck_unit"] for x in p.products}
+    assert p.extras["decisions"]["bottleneck"] == "assembly"
+    assert per == pytest.approx({"plain": (80 - 20) / 1.0, "gloss": (95 - 20) / 1.0, "rough": (70 - 30) / 0.5})

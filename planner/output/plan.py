@@ -34,6 +34,10 @@ class ProductPlan:
     standalone: Standalone
     must_run: bool = False  # may not be shut down: its must_run, or a committed min_volume
     forced: str = ""  # why it may not be shut down: "must_run", "min_volume" (a commitment), "" if it may
+    # Filled by the decision analysis (planner.analysis.decisions); None where it was not run (then not in JSON):
+    # cost_of_reversal (currency, ≥ 0), switch_intercept (currency/unit), contribution_per_bottleneck_unit
+    # (currency per bottleneck unit), decision_checked, decision_note
+    decision: dict[str, Any] | None = None
 
     @property
     def sold_price(self) -> float | None:
@@ -44,6 +48,8 @@ class ProductPlan:
         d = {f: getattr(self, f) for f in _PRODUCT_FIELDS}
         d["price"] = self.sold_price
         d["standalone"] = self.standalone.to_dict()
+        if self.decision is not None:
+            d.update(self.decision)
         return d
 
 
@@ -151,7 +157,7 @@ class Plan:
             else pd.DataFrame(columns=["capacity", "used", "utilisation", "shadow_price", "binding", "unit"])
 
 
-_PRODUCT_FIELDS = [f.name for f in fields(ProductPlan) if f.name != "standalone"]
+_PRODUCT_FIELDS = [f.name for f in fields(ProductPlan) if f.name not in ("standalone", "decision")]
 _RESOURCE_FIELDS = [f.name for f in fields(ResourcePlan)
                     if f.name not in ("open", "fixed_cost", "closable", "show_fixed")]
 

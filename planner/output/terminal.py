@@ -232,6 +232,9 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True,
         from planner.output.capacity import print_capacity
 
         print_capacity(p, con)
+    from planner.output.decisions import print_decisions
+
+    print_decisions(p, con)
     if chosen is not None and p.extras.get("option_pick") is not None:
         print_chosen(p.extras["option_pick"], chosen, con, scenario)
     if standalone:
