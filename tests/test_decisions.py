@@ -185,3 +185,26 @@ def test_contribution_per_bottleneck_unit_by_hand():
     per = {x.name: x.decision["contribution_per_bottleneck_unit"] for x in p.products}
     assert p.extras["decisions"]["bottleneck"] == "assembly"
     assert per == pytest.approx({"plain": (80 - 20) / 1.0, "gloss": (95 - 20) / 1.0, "rough": (70 - 30) / 0.5})
+
+
+def test_cli_writes_decisions_to_json_and_the_table(tmp_path):
+    import json
+
+    import yaml
+    from click.testing import CliRunner
+
+    from planner.cli.main import main
+
+    f = tmp_path / "closing.yaml"
+    f.write_text(yaml.safe_dump(closing()))
+    out = tmp_path / "plan.json"
+    res = CliRunner().invoke(main, ["plan", str(f), "--decisions", "--json", str(out)])
+    assert res.exit_code == 0, res.output
+    prods = {q["name"]: q for q in json.loads(out.read_text())["products"]}
+    ref_forced = enumerate_best(without(closing(), "plain"))  # plain stopped, highspy enumeration
+    assert prods["plain"]["cost_of_reversal"] == pytest.approx(enumerate_best(closing()) - ref_forced, abs=1e-3)
+    assert all(q["decision_checked"] for q in prods.values())
+    assert "Product decisions" in res.output
+    res = CliRunner().invoke(main, ["plan", str(f), "--no-decisions", "--json", str(out)])
+    assert res.exit_code == 0, res.output
+    assert "cost_of_reversal" not in json.loads(out.read_text())["products"][0]
