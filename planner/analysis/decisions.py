@@ -30,8 +30,10 @@ the absolute gap g = bound − P:
   most); the price is the plan's price where k sells, its intercept (the first unit's price)
   where it does not.  None where k uses none of the bottleneck or nothing binds.
 
-Budget: products are analysed in scenario order until ``budget`` seconds (or the command's
-deadline) pass; the rest get ``decision_checked: false`` and None values, and a warning.
+Budget: every product's cost of reversal first, then the switch intercepts, in scenario order,
+until ``budget`` seconds (or the command's deadline) pass; a product left incomplete gets
+``decision_checked: false``, None for what was not computed (a cost of reversal already computed
+is kept) and a ``decision_note`` saying so, and the plan a warning.
 """
 
 from __future__ import annotations
@@ -49,8 +51,10 @@ from planner.output.plan import Plan
 from planner.scenario.arrays import mix_data
 from planner.scenario.schema import Scenario
 
-#: Seconds the default decision analysis may spend, or twice the plan's solve if longer.
-AUTO_BUDGET = 3.0
+#: Seconds the default decision analysis may spend, or ``AUTO_TIMES`` the plan's solve if longer (each
+#: cost of reversal is one re-solve of about the plan's time, each switch intercept about eight).
+AUTO_BUDGET = 5.0
+AUTO_TIMES = 5.0
 #: Bracket width of the switch intercept, as a fraction of |a_k| (1 currency unit at least).
 PRECISION = 0.005
 #: A decision is flagged marginal where its cost of reversal is below this share of |profit| (or the gap).
@@ -59,7 +63,7 @@ MARGINAL = 0.01
 
 def decision_budget(p: Plan) -> float:
     """The default decision analysis's budget for plan ``p`` (seconds)."""
-    return max(AUTO_BUDGET, 2 * float(p.solver.get("seconds", 0.0) or 0.0))
+    return max(AUTO_BUDGET, AUTO_TIMES * float(p.solver.get("seconds", 0.0) or 0.0))
 
 
 def unchecked(note: str) -> dict[str, Any]:
@@ -137,21 +141,30 @@ def _analyse(p: Plan, s: Scenario, rel_gap: float, end: float | None, budget: fl
     b_idx = bottleneck(lam, np.array([r.capacity for r in p.resources], dtype=float))
     tol = (p.bound - p.profit) + rel_gap * max(abs(p.profit), 1.0)  # the plan's and a re-solve's certificates
     product_profit = p.profit + s.plant_fixed_cost  # the engine's objective leaves the plant-wide cost out
-    done = 0
-    for k, x in enumerate(p.products):
+    can = np.zeros(len(p.products), dtype=bool)
+    for k, x in enumerate(p.products):  # first every cost of reversal (one re-solve each)
         if rs.out_of_time():
             x.decision = unchecked("time budget spent")
             continue
-        entry: dict[str, Any] = {"contribution_per_bottleneck_unit": _per_bottleneck(d, H, b_idx, k, x),
-                                 "decision_checked": True}
+        entry: dict[str, Any] = {"contribution_per_bottleneck_unit": _per_bottleneck(d, H, b_idx, k, x)}
         try:
             entry.update(_reversal(rs, k, x, product_profit, tol))
-            entry["switch_intercept"] = _switch(rs, H, lam, k, x) if entry.pop("_can") else None
         except TimeoutError:
             x.decision = unchecked("time budget spent")
             continue
+        can[k] = entry.pop("_can")
+        entry.update(switch_intercept=None, decision_checked=not can[k])
         x.decision = entry
-        done += 1
+    for k, x in enumerate(p.products):  # then the switch intercepts (a bisection each), as time allows
+        if not can[k] or rs.out_of_time():
+            continue
+        try:
+            x.decision["switch_intercept"] = _switch(rs, H, lam, k, x)
+            x.decision["decision_checked"] = True
+        except TimeoutError:
+            x.decision["decision_note"] = (x.decision["decision_note"] + "; " if x.decision["decision_note"]
+                                           else "") + "switch intercept not computed: time budget spent"
+    done = sum(bool(x.decision and x.decision["decision_checked"]) for x in p.products)
     if done < len(p.products):
         spent = "time limit" if budget is None else f"{budget:.2g} s budget (or the time limit)"
         p.warnings.append(f"decisions of {len(p.products) - done} of {len(p.products)} products were not analysed "

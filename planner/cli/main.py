@@ -269,7 +269,7 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
         from planner.analysis.decisions import add_decision_analysis, decision_budget
 
         auto = decisions is None
-        add_decision_analysis(p, s, rel_gap=min(rel_gap, 1e-6), budget=decision_budget(p) if auto else None,
+        add_decision_analysis(p, s, rel_gap=rel_gap, budget=decision_budget(p) if auto else None,
                               deadline=deadline, limit=DECISIONS_AUTO_MAX if auto else None)
     chosen = None
     if choose_options:
