@@ -208,3 +208,24 @@ def test_cli_writes_decisions_to_json_and_the_table(tmp_path):
     res = CliRunner().invoke(main, ["plan", str(f), "--no-decisions", "--json", str(out)])
     assert res.exit_code == 0, res.output
     assert "cost_of_reversal" not in json.loads(out.read_text())["products"][0]
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_slate_path_profit_counts_group_and_resource_fixed_costs(seed):
+    # the capacity paths compare slates' profits: each must carry its groups' and resources' fixed costs
+    from planner.analysis.capacity.analysis import plan_open, plan_slate
+    from planner.analysis.capacity.paths import SlatePath
+    from planner.api import engine_for
+    from planner.scenario.arrays import mix_data
+
+    raw = random_small(seed)
+    s, _ = validate_scenario(raw)
+    p = plan(s, rel_gap=1e-9)
+    d = mix_data(s).with_closed(plan_open(p))
+    slate = plan_slate(p, d.can_stop)
+    path = SlatePath(engine_for(s, d), d, slate, np.eye(len(d.resources))[1])
+    x = numbers(raw)
+    run = np.array([q.running for q in p.products])
+    ref = slate_value(x, run, plan_open(p))  # highspy directly on the raw numbers
+    assert path.profit(0.0) == pytest.approx(ref, rel=1e-7, abs=1e-4)
+    assert ref == pytest.approx(p.profit, rel=1e-7, abs=1e-4)
