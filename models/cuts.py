@@ -15,7 +15,7 @@ Because every cut over-estimates g_i, the MILP's optimum (and its dual bound)
 is an upper bound on the true profit; cuts added at the MILP's own volumes
 close the gap (Duran & Grossmann 1986, Math. Programming 36; the perspective
 form after Frangioni & Gentile 2006, Math. Programming 106).  Capacity
-options enter as in :mod:`models.mix` (their cost and capacity terms are
+options, product groups and closable resources enter as in :mod:`models.mix` (their cost and capacity terms are
 linear already).  The model is
 linear, so a persistent LP/MILP interface can take new cuts without a rebuild.
 """
@@ -26,7 +26,7 @@ import numpy as np
 import pyomo.environ as pyo
 
 from models.data import MixData, peak_contribution
-from models.mix import add_capacity, add_options, add_volumes, option_cost
+from models.mix import add_capacity, add_groups_and_closing, add_options, add_volumes, option_cost
 
 
 def build_cut_model(d: MixData, integer: bool = True) -> pyo.ConcreteModel:
@@ -34,6 +34,7 @@ def build_cut_model(d: MixData, integer: bool = True) -> pyo.ConcreteModel:
     m = pyo.ConcreteModel(name="product_mix_cuts")
     y = add_volumes(m, d, None, integer)
     add_options(m, d, None, integer)
+    shared = add_groups_and_closing(m, d, y, integer)
     add_capacity(m, d)
     m.running_of = y  # per product: Pyomo var or the constant 1
     peak = peak_contribution(d)
@@ -44,7 +45,8 @@ def build_cut_model(d: MixData, integer: bool = True) -> pyo.ConcreteModel:
         expr=pyo.quicksum(m.contribution[p] for p in d.products)
         - pyo.quicksum(float(F[k]) * y[k] for k in range(d.n) if F[k] > 0 and not isinstance(y[k], int))
         - float(sum(F[k] for k in range(d.n) if isinstance(y[k], int)))
-        - option_cost(m, d),
+        - option_cost(m, d)
+        - shared,
         sense=pyo.maximize)
     return m
 

@@ -31,6 +31,13 @@ Capacity options (optional; none by default): option o adds s_o·A_ro to each
 capacity for a cost c_o·s_o, with s_o ∈ {0, 1} for an all-or-nothing option
 (a shift) and s_o ∈ [0, 1] for one usable in part (overtime, premium material).
 
+Product groups (optional; none by default): group g with fixed cost G_g is
+paid if any member runs (z_g ≥ y_i for each member i; a product may be in
+several groups).  Resources may carry their own fixed cost E_r; a closable
+resource is open (w_r = 1: capacity H_r, cost E_r) or closed (w_r = 0:
+capacity 0, nothing paid); a resource that cannot close always pays E_r.
+Members of a group with G_g > 0 get an on/off choice.
+
 Derived here, because they are part of the formulation: the upper bound U_i,
 as tight as every limit allows (for the on/off links of the MILP), a looser
 bound for the continuous QP that never competes with a capacity row for its
@@ -73,6 +80,12 @@ class MixData:
     buy_cost: np.ndarray | None = None  # β_i, currency per unit bought in (0 where none may be bought)
     buy_max: np.ndarray | None = None  # Q_i, units (0: nothing may be bought)
     periods: "PeriodData | None" = None  # several periods (models.periods): the rows are (resource, period) pairs
+    groups: tuple[str, ...] = ()  # product groups sharing a fixed cost
+    grp_cost: np.ndarray | None = None  # (groups,) currency, paid if any member runs
+    grp_idx: np.ndarray | None = None  # membership (COO): group of each entry
+    grp_prod: np.ndarray | None = None  # membership (COO): product of each entry
+    res_fixed: np.ndarray | None = None  # (resources,) currency: the resource's own fixed cost
+    res_closable: np.ndarray | None = None  # (resources,) bool: closing saves res_fixed, capacity then 0
     upper: np.ndarray = field(init=False)
     make_upper: np.ndarray = field(init=False)
     qp_upper: np.ndarray = field(init=False)
@@ -90,12 +103,36 @@ class MixData:
             object.__setattr__(self, "buy_max", np.zeros(len(self.products)))
         if self.buy_cost is None:
             object.__setattr__(self, "buy_cost", np.zeros(len(self.products)))
+        g, m = len(self.groups), len(self.resources)
+        for name, default in (("grp_cost", np.zeros(g)), ("grp_idx", np.zeros(0, dtype=np.int64)),
+                              ("grp_prod", np.zeros(0, dtype=np.int64)), ("res_fixed", np.zeros(m)),
+                              ("res_closable", np.zeros(m, dtype=bool))):
+            if getattr(self, name) is None:
+                object.__setattr__(self, name, default)
         peak = peak_bound(self)
         object.__setattr__(self, "make_upper", tight_upper(self, peak_bound(self, selling=False)))
         object.__setattr__(self, "upper", sell_upper(self, self.make_upper, peak))
         object.__setattr__(self, "qp_upper", np.minimum(self.cap, peak))
-        stop = ~self.must_run & ((self.F > 0) | (self.min_run > 0))
+        stop = ~self.must_run & ((self.F > 0) | (self.min_run > 0) | self.in_costly_group)
         object.__setattr__(self, "can_stop", stop)
+
+    @property
+    def in_costly_group(self) -> np.ndarray:
+        """(n,) bool: products in a group with a positive fixed cost (they get an on/off choice)."""
+        out = np.zeros(len(self.products), dtype=bool)
+        costly = self.grp_cost[self.grp_idx] > 0
+        out[self.grp_prod[costly]] = True
+        return out
+
+    @property
+    def n_groups(self) -> int:
+        return len(self.groups)
+
+    def group_members(self) -> np.ndarray:
+        """(groups × products) bool membership (dense; groups are few)."""
+        M = np.zeros((len(self.groups), len(self.products)), dtype=bool)
+        M[self.grp_idx, self.grp_prod] = True
+        return M
 
     @property
     def n(self) -> int:
@@ -137,7 +174,20 @@ class MixData:
 
     def with_capacity(self, capacity: np.ndarray) -> "MixData":
         """The same data with other capacities (the bounds are recomputed)."""
-        return replace(self, capacity=np.asarray(capacity, dtype=float))  # every other field kept
+        return replace(self, capacity=np.asarray(capacity, dtype=float))
+
+    def with_closed(self, opened: np.ndarray | None) -> "MixData":
+        """The same data with the resources not ``opened`` (m,) closed for good: capacity 0, no longer
+        closable, their own fixed cost saved (0).  None or all open: the data itself.
+
+        Analyses of a plan re-solve this data, so no re-solve reopens a resource the plan closed.
+        """
+        if opened is None or np.all(opened):
+            return self
+        shut = ~np.asarray(opened, dtype=bool)
+        return replace(self, capacity=np.where(shut, 0.0, self.capacity),
+                       res_closable=np.asarray(self.res_closable, dtype=bool) & ~shut,
+                       res_fixed=np.where(shut, 0.0, self.res_fixed))
 
     def with_options(self, keep: np.ndarray) -> "MixData":
         """The same data offering only the options where ``keep`` is True."""

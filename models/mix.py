@@ -31,6 +31,17 @@ units of the sales D_i are bought in at β_i each and use no resource:
 
 (so D_i − B_i are the units made, and B_i = 0 when the product stops).
 
+Product groups g (none by default) with fixed cost G_g: ``group_on[g]``
+z_g ∈ {0, 1}, ``group_link[g, i]``: y_i ≤ z_g for each member i (a member
+with no choice forces z_g = 1).  Resources with a fixed cost E_r: one that
+cannot close pays E_r (a constant); a closable one has ``open[r]``
+w_r ∈ {0, 1}, its capacity H_r·w_r and cost E_r·w_r:
+
+.. math::
+    \max \; \ldots - \sum_g G_g z_g - \sum_{r \text{ closable}} E_r w_r
+          - \sum_{r \text{ not closable}} E_r, \qquad
+    \text{capacity}_r: \; \sum_i h_{ri} D_i - \ldots \le H_r w_r
+
 Revenue a·D − b·D² is the price–demand line p = a − b·D times volume; the
 price follows from the volume.  With ``slate`` given, y is fixed data (the
 model is then a convex QP with bounds only, no integer columns: HiGHS keeps a
@@ -130,8 +141,31 @@ def option_cost(m: pyo.ConcreteModel, d: MixData):
     return pyo.quicksum(float(d.opt_cost[k]) * m.option_scale[o] for k, o in enumerate(d.options))
 
 
+def add_groups_and_closing(m: pyo.ConcreteModel, d: MixData, y: list, integer: bool):
+    """group_on[g] with its links y_i ≤ z_g, open[r] for closable resources; returns their cost (expression)."""
+    cost = float(np.sum(d.res_fixed[~d.res_closable]))
+    terms = []
+    if d.n_groups:
+        m.G = pyo.Set(initialize=list(d.groups), ordered=True)
+        m.group_on = pyo.Var(m.G, domain=pyo.Binary if integer else pyo.UnitInterval)
+        pairs = list(zip(d.grp_idx.tolist(), d.grp_prod.tolist()))
+        links = [(d.groups[g], d.products[i]) for g, i in pairs if not isinstance(y[i], int)]
+        pos = {p: k for k, p in enumerate(d.products)}
+        m.group_link = pyo.Constraint(links, rule=lambda m, g, p: y[pos[p]] <= m.group_on[g])
+        for g, i in pairs:
+            if isinstance(y[i], int):  # a member that always runs: the group is paid
+                m.group_on[d.groups[g]].setlb(1)
+        terms += [float(d.grp_cost[k]) * m.group_on[g] for k, g in enumerate(d.groups)]
+    closable = [r for k, r in enumerate(d.resources) if d.res_closable[k]]
+    if closable:
+        m.RC = pyo.Set(initialize=closable, ordered=True)
+        m.open = pyo.Var(m.RC, domain=pyo.Binary if integer else pyo.UnitInterval)
+        terms += [float(d.res_fixed[k]) * m.open[r] for k, r in enumerate(d.resources) if d.res_closable[k]]
+    return cost + pyo.quicksum(terms) if terms else cost
+
+
 def add_capacity(m: pyo.ConcreteModel, d: MixData) -> None:
-    """capacity[r]: Σ_i h_ri·D_i − Σ_o A_ro·s_o ≤ H_r (resource units)."""
+    """capacity[r]: Σ_i h_ri·D_i − Σ_o A_ro·s_o ≤ H_r (resource units); ≤ H_r·w_r where r is closable."""
     cols = usage_by_resource(d)
     vol = [m.volume[p] for p in d.products]
     exprs = {}
@@ -148,15 +182,25 @@ def add_capacity(m: pyo.ConcreteModel, d: MixData) -> None:
                 varlist.append(m.option_scale[o])
         exprs[name] = LinearExpression(constant=0.0, linear_coefs=coefs, linear_vars=varlist)
     index = {r: k for k, r in enumerate(d.resources)}
-    m.capacity = pyo.Constraint(m.R, rule=lambda m, r: (None, exprs[r], float(d.capacity[index[r]])))
+
+    def row(m, r):
+        k = index[r]
+        if d.res_closable[k]:
+            return exprs[r] - float(d.capacity[k]) * m.open[r] <= 0.0
+        return (None, exprs[r], float(d.capacity[k]))
+
+    m.capacity = pyo.Constraint(m.R, rule=row)
 
 
 def build_mix_model(d: MixData, slate: Sequence[bool] | None = None, integer: bool = True) -> pyo.ConcreteModel:
     """The mixed-integer QP (or, with ``slate``, the fixed-slate QP) as a Pyomo model."""
     m = pyo.ConcreteModel(name="product_mix")
+    if slate is not None and (d.n_groups or d.res_closable.any()):
+        raise ValueError("a fixed-slate model takes no product groups or closable resources")
     y = add_volumes(m, d, slate, integer)
     add_bought(m, d)
     add_options(m, d, slate, integer)
+    shared = add_groups_and_closing(m, d, y, integer)
     add_capacity(m, d)
     margin, b, F = d.margin, d.b, d.F
     terms = []
@@ -174,7 +218,7 @@ def build_mix_model(d: MixData, slate: Sequence[bool] | None = None, integer: bo
     for p in (m.B if hasattr(m, "B") else ()):
         k = d.products.index(p)
         terms.append(-float(d.buy_cost[k] - d.v[k]) * m.bought[p])
-    m.profit = pyo.Objective(expr=pyo.quicksum(terms) - const, sense=pyo.maximize)
+    m.profit = pyo.Objective(expr=pyo.quicksum(terms) - const - shared, sense=pyo.maximize)
     return m
 
 

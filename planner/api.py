@@ -21,7 +21,7 @@ from planner.engine.infeasible import explain as explain_infeasible
 from planner.engine.settings import LIMIT_TOL, MAX_GAP
 from planner.engine.verify import check_plan
 from planner.errors import PlannerError, SolverError
-from planner.output.plan import Plan, ProductPlan, ResourcePlan, solver_versions
+from planner.output.plan import GroupPlan, Plan, ProductPlan, ResourcePlan, solver_versions
 from planner.scenario.arrays import mix_data
 from planner.output.periods import period_plan
 from planner.engine.infeasible_periods import explain_periods
@@ -118,17 +118,25 @@ def build_plan(s: Scenario, d: MixData, sol: Solution, warnings: list[str] | Non
     used = d.used(vol if bought is None else vol - bought)
     value = capacity_value(sol.duals, d.capacity)
     resources = []
+    opened = sol.opened if sol.opened.size else np.ones(len(s.resources), dtype=bool)
+    show_fixed = bool(s.product_groups) or any(r.fixed_cost > 0 or r.closable for r in s.resources)
     for r, res in enumerate(s.resources):
         cap = float(d.capacity[r])
         tol = LIMIT_TOL * max(abs(cap), 1.0)
-        shadow = float(sol.duals[r])
-        binding = bool(used[r] >= cap - max(1e-6 * max(abs(cap), 1.0), tol)) and cap >= 0
+        shadow = float(sol.duals[r]) if opened[r] else 0.0  # a closed resource has no marginal value to show
+        binding = bool(used[r] >= cap - max(1e-6 * max(abs(cap), 1.0), tol)) and cap >= 0 and bool(opened[r])
         shown = shadow if binding or shadow > 1e-9 else 0.0
         resources.append(ResourcePlan(name=res.name, capacity=cap, used=float(used[r]),
                                       utilisation=float(used[r] / cap) if cap > 0 else 0.0,
                                       shadow_price=shown, binding=binding, unit=res.unit,
-                                      value_of_one_percent=float(value[r]) if shown else 0.0))
-    product_profit = sum(p.profit for p in products)
+                                      value_of_one_percent=float(value[r]) if shown else 0.0,
+                                      open=bool(opened[r]), fixed_cost=float(res.fixed_cost),
+                                      closable=bool(res.closable), show_fixed=show_fixed))
+    on = sol.group_on if sol.group_on.size else np.zeros(len(s.product_groups), dtype=bool)
+    groups = [GroupPlan(g.name, bool(on[k]), float(g.fixed_cost), list(g.products))
+              for k, g in enumerate(s.product_groups)]
+    product_profit = sum(p.profit for p in products) - sum(g.fixed_cost for g in groups if g.running) \
+        - sum(r.fixed_cost for r in resources if r.open)
     profit = product_profit - s.plant_fixed_cost
     bound = max(float(sol.bound), product_profit) - s.plant_fixed_cost
     info = {"strategy": sol.strategy, "rounds": sol.rounds, "seconds": sol.seconds,
@@ -137,7 +145,7 @@ def build_plan(s: Scenario, d: MixData, sol: Solution, warnings: list[str] | Non
     return Plan(scenario=s.name, status=sol.status, profit=profit, bound=bound,
                 gap=relative_gap(bound, profit), products=products, resources=resources,
                 currency=s.currency, period=s.period, plant_fixed_cost=s.plant_fixed_cost,
-                solver=info, warnings=list(warnings or []) + extrapolation_warnings(s, products))
+                solver=info, warnings=list(warnings or []) + extrapolation_warnings(s, products), groups=groups)
 
 
 def write_model_file(scenario: Scenario | str | Path, path: str | Path) -> Path:

@@ -317,6 +317,15 @@ EXPECTED: dict[str, list[str]] = {
         'products[bookcase].holding_cost: only applies with periods (add periods: [names...] or remove it)',
         'products[bookcase].initial_stock: only applies with periods (add periods: [names...] or remove it)',
     ],
+    '80_group_mistakes.yaml': [
+        'line 10, column 45 (product_groups[empty].fixed_cost): 1,5 is split at its comma: inside { } a comma separates entries, so YAML reads 1 here and 5 as a key of its own (write 1.5, with a decimal point)',
+        'resources[saw].fixed_cost: must be >= 0 (got -10) (give a value of 0 or more)',
+        "resources[saw].closable: must be true or false (got 'maybe') (write true or false)",
+        'product_groups[empty].products: must not be empty (list at least one entry)',
+        'product_groups[Oak line]: differs from product_groups[oak line] only in case (names must differ by more than case, spacing or how accents are encoded: rename one)',
+        "product_groups[oak line].products.oak tabel: names a product that is not defined (did you mean 'oak table'?)",
+        'product_groups[oak line].products.oak bookcase: is listed twice in the group (list each member once)',
+    ],
 }
 
 

@@ -133,8 +133,10 @@ def test_run_labels_say_why_a_product_runs(tmp_path):
     f.write_text(yaml.safe_dump(raw))
     res = run("plan", f, "--no-standalone")
     assert res.exit_code == 0, res.output
-    rows = {line.split()[0]: line.split() for line in res.output.splitlines() if line.split()[:1] in
-            (["kept"], ["forced"], ["loser"])}
+    rows = {}
+    for line in res.output.splitlines():  # the products table comes first (the decisions table repeats names)
+        if line.split()[:1] in (["kept"], ["forced"], ["loser"]):
+            rows.setdefault(line.split()[0], line.split())
     assert rows["kept"][1] == "committed" and rows["forced"][1] == "must" and rows["loser"][1] == "off"
     text = _flat(res.output)
     assert "must: must_run, may not be shut down; committed: its min_volume makes it run" in text

@@ -45,12 +45,22 @@ def _pyomo_rows(m) -> tuple[np.ndarray, np.ndarray, float]:
     return np.sort(ups), np.sort(los), float(pyo.value(m.profit))
 
 
-@pytest.mark.parametrize("n,m,fixed,seed,options", [(6, 2, "near", 1, False), (9, 3, "some", 2, True),
-                                                     (14, 4, "near", 3, True)])
-def test_cut_milp_rows_are_the_model_of_record(n, m, fixed, seed, options):
+@pytest.mark.parametrize("n,m,fixed,seed,options,groups", [(6, 2, "near", 1, False, False),
+                                                            (9, 3, "some", 2, True, False),
+                                                            (14, 4, "near", 3, True, False),
+                                                            (10, 3, "some", 4, True, True),
+                                                            (8, 2, "near", 5, False, True)])
+def test_cut_milp_rows_are_the_model_of_record(n, m, fixed, seed, options, groups):
     from models.cuts import add_cuts, build_cut_model
 
     raw = synthetic_scenario(n, m, seed=seed, fixed_costs=fixed, commitments=True)
+    if groups:  # overlapping groups (one of fixed cost 0), a closable resource and one with a fixed cost
+        names = [q["name"] for q in raw["products"]]
+        raw["product_groups"] = [{"name": "g1", "products": names[:3], "fixed_cost": 900.0},
+                                 {"name": "g2", "products": names[2:5], "fixed_cost": 400.0},
+                                 {"name": "g3", "products": names[5:], "fixed_cost": 0.0}]
+        raw["resources"][0].update(fixed_cost=700.0, closable=True)
+        raw["resources"][1].update(fixed_cost=300.0)
     if options:  # one all-or-nothing option and one usable in part
         first = raw["resources"][0]
         amount = {first["name"]: 0.2 * first["capacity"]}
@@ -78,6 +88,10 @@ def test_cut_milp_rows_are_the_model_of_record(n, m, fixed, seed, options):
                 ref.running[name].set_value(float(x[p.products.ycol[k]]), skip_validation=True)
         for k, o in enumerate(d.options):
             ref.option_scale[o].set_value(float(x[p.options.col[k]]), skip_validation=True)
+        for k, g in enumerate(d.groups):
+            ref.group_on[g].set_value(float(x[p.groups.col[k]]), skip_validation=True)
+        for k, r in enumerate(p.resources.rows):
+            ref.open[d.resources[r]].set_value(float(x[p.resources.col[k]]), skip_validation=True)
         up_h, lo_h, obj_h = _highs_rows(milp.h, x)
         up_p, lo_p, obj_p = _pyomo_rows(ref)
         assert up_h.size == up_p.size and lo_h.size == lo_p.size

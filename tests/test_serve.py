@@ -36,7 +36,7 @@ def hand_edited_plan(demo_path, folder, name: str, edit) -> dict:
     path = folder / f"{name}.yaml"
     path.write_text(yaml.safe_dump(raw, sort_keys=False, allow_unicode=True), encoding="utf-8")
     out = folder / f"{name}.json"
-    res = CliRunner().invoke(main, ["plan", str(path), "--json", str(out), "--no-capacity", "-q"])
+    res = CliRunner().invoke(main, ["plan", str(path), "--json", str(out), "--no-capacity", "--no-decisions", "-q"])
     assert res.exit_code == 0, res.output
     return json.loads(out.read_text())
 

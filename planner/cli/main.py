@@ -44,6 +44,9 @@ TIME_LIMIT_MAX = 1e6
 GAP_MAX = MAX_GAP
 GAP_WHY = ("a plan within this gap is called optimal, so a looser one would promise too little; for a quick "
            "rough plan use --time-limit, which reports the gap it reached")
+#: Largest scenario (products) for which `plan` adds the decision analysis unless told otherwise.
+DECISIONS_AUTO_MAX = 100
+
 #: Largest capacity a --from / --to may name (the scenario's own limit on any number, schema.MAX_MAGNITUDE).
 CAPACITY_MAX = 1e15
 
@@ -220,11 +223,15 @@ def main() -> None:
               help="Add (or skip) the shadow-price ranges and the options' values; by default they are "
                    f"added for scenarios of up to {CAPACITY_AUTO_MAX} products or with --choose-options, "
                    "with about 1 s for re-checking the range ends for better slates.")
+@click.option("--decisions/--no-decisions", "decisions", default=None,
+              help="Add (or skip) what each product's run/stop decision is worth (cost of reversal, the price "
+                   "intercept where it flips, contribution per bottleneck unit); by default added for scenarios "
+                   f"of up to {DECISIONS_AUTO_MAX} products within a few seconds, --decisions computes them all.")
 @solve_options
 @friendly
 def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_model: Path | None,
              rel_gap: float, time_limit: float | None, solver: str | None, quiet: bool, debug: bool,
-             choose_options: bool = False, capacity: bool | None = None) -> None:
+             choose_options: bool = False, capacity: bool | None = None, decisions: bool | None = None) -> None:
     """Plan the optimal product mix of SCENARIO (YAML, .xlsx workbook or folder of CSV files)."""
     from planner.api import plan
     from planner.files import write_text_atomic
@@ -269,6 +276,12 @@ def plan_cmd(scenario: Path, json_path: Path | None, no_standalone: bool, write_
 
         add_capacity_analysis(p, s, choose=choose_options, budget=auto_budget(p) if automatic else None,
                               deadline=deadline)
+    if decisions is None or decisions:
+        from planner.analysis.decisions import add_decision_analysis, decision_budget
+
+        auto = decisions is None
+        add_decision_analysis(p, s, rel_gap=rel_gap, budget=decision_budget(p) if auto else None,
+                              deadline=deadline, limit=DECISIONS_AUTO_MAX if auto else None)
     chosen = None
     if choose_options:
         left = None if deadline is None else deadline - time.perf_counter()

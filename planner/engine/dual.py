@@ -46,6 +46,7 @@ class DualPoint:
     on: np.ndarray  # per choice: L's terms with the choice forced on
     off: np.ndarray  # ... forced off
     values: list[np.ndarray] = field(default_factory=list)  # each family's variables at λ
+    sep: tuple | None = None  # (value, on, off) affine in the choice, exact for slates that keep every link
 
     @property
     def gains(self) -> np.ndarray:
@@ -70,9 +71,14 @@ def evaluate(p: Problem, lam: np.ndarray) -> DualPoint:
     resp = p.respond(lam)
     use = np.sum([r.use for r in resp], axis=0) if resp else np.zeros(p.m)
     value = float(lam @ p.capacity + sum(r.value for r in resp))
+    sep = None
+    if any(r.sep is not None for r in resp):
+        parts = [r.sep if r.sep is not None else (r.value, r.on, r.off) for r in resp]
+        sep = (float(lam @ p.capacity + sum(s[0] for s in parts)), np.concatenate([s[1] for s in parts]),
+               np.concatenate([s[2] for s in parts]))
     return DualPoint(lam, value, p.capacity - use, np.concatenate([r.choice for r in resp]),
                      np.concatenate([r.on for r in resp]), np.concatenate([r.off for r in resp]),
-                     [r.x for r in resp])
+                     [r.x for r in resp], sep)
 
 
 def choice_bounds(points: list[DualPoint], n: int) -> tuple[np.ndarray, np.ndarray]:

@@ -16,7 +16,8 @@ answers, each time under a certified gap and a deadline:
 
 Every answer is a :class:`Solution` in the scenario's units, checked against
 every limit (:mod:`.verify`).  Profit (``objective``) excludes the
-plant-wide fixed cost, which the Plan subtracts.
+plant-wide fixed cost, which the Plan subtracts; it includes the product
+groups' and the resources' fixed costs.
 """
 
 from __future__ import annotations
@@ -63,6 +64,8 @@ class Solution:
     made: np.ndarray | None = None  # with periods: (n × T) units made per product and period
     sold: np.ndarray | None = None  # with periods: (n × T) units sold per product and period
     bought: np.ndarray | None = None  # units bought in per product (of ``volume``, the sales); None: none may be
+    group_on: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=bool))  # per product group: paid
+    opened: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=bool))  # per resource: open (not closed)
 
     @property
     def gap(self) -> float:
@@ -152,8 +155,9 @@ class Engine:
         return sol
 
     def slate(self, running: np.ndarray, taken: np.ndarray | None = None, time_limit: float | None = None,
-              **changes) -> Solution:
-        """The exact plan of a fixed slate: ``running`` (n,) products, ``taken`` (k,) all-or-nothing options.
+              opened: np.ndarray | None = None, **changes) -> Solution:
+        """The exact plan of a fixed slate: ``running`` (n,) products, ``taken`` (k,) all-or-nothing options,
+        ``opened`` (m,) resources open (default all); a product group is paid where a member runs.
 
         Status "optimal" (exact to rounding where the polish applies) or, where the slate
         cannot be planned, "infeasible" / "time_limit" / "error" with zero volumes.
@@ -161,7 +165,7 @@ class Engine:
         t0 = time.perf_counter()
         d = self.data(**changes)
         p = self.problem(d)
-        res = solve_choice(p, p.choice(np.asarray(running, dtype=bool) | ~d.can_stop, taken), time_limit,
+        res = solve_choice(p, p.choice(np.asarray(running, dtype=bool) | ~d.can_stop, taken, opened), time_limit,
                            self.threads, self.seed)
         if res.status != "optimal":
             n = d.n
@@ -223,11 +227,14 @@ class Engine:
             bought = np.minimum(clean_volumes(self.scales.volumes(p.products.bought(res.values[0])), d), volume)
         running = p.products.running(parts[0])
         scale = p.options.scale_of(res.values[1], parts[1]) if d.n_options else np.zeros(0)
-        check_plan(d, volume, running, scale, bought=bought)
+        opened = p.opened(res.choice)
+        check_plan(d if opened.all() else replace(d, capacity=np.where(opened, d.capacity, 0.0)), volume, running,
+                   scale, bought=bought)
         objective = res.objective * mu
         return Solution(str(status), volume, running, objective, max(bound * mu, objective),
                         self.scales.prices_out(res.duals), strategy, qp_method=res.method, option_scale=scale,
-                        offset=self.offset, bought=bought)
+                        offset=self.offset, bought=bought, group_on=p.group_on(res.choice),
+                        opened=opened)
 
     def _from_periods(self, d: MixData, p: Problem, res: SlateResult, bound: float, status: str,
                       strategy: str) -> Solution:

@@ -65,7 +65,7 @@ def enumerate_slates(p: Problem, evaluate_slate, rel_gap: float, cert: Certifica
         pt = evaluate(p, np.zeros(p.m))
         points.append(pt)
         first = pt.choice
-        _tighten(ub, solved, Y, pt)
+        _tighten(ub, solved, Y, pt, p)
     weights = 1 << np.arange(K, dtype=np.int64)
     row = int(np.asarray(first, dtype=np.int64) @ weights)
     qps = 0
@@ -78,7 +78,7 @@ def enumerate_slates(p: Problem, evaluate_slate, rel_gap: float, cert: Certifica
             best = max(best, res.objective)
             pt = evaluate(p, res.duals)
             points.append(pt)
-            _tighten(ub, solved, Y, pt)
+            _tighten(ub, solved, Y, pt, p)
         floor = best + cert.slack(rel_gap, best) if np.isfinite(best) else -np.inf
         open_ = ~solved & (ub > floor)
         if not open_.any():
@@ -88,13 +88,26 @@ def enumerate_slates(p: Problem, evaluate_slate, rel_gap: float, cert: Certifica
         row = int(np.argmax(np.where(open_, ub, -np.inf)))
 
 
-def _tighten(ub: np.ndarray, solved: np.ndarray, Y: np.ndarray, pt: DualPoint) -> None:
-    """Lower every unsolved slate's bound to L_S at the point's λ (in place)."""
-    gain = pt.on - pt.off
-    bad = ~np.isfinite(gain)  # a choice that cannot be on (off is always possible here)
-    const = pt.value - float(np.sum(np.maximum(pt.on, pt.off))) + float(np.sum(pt.off))
-    bound_all = const + Y @ np.where(bad, 0.0, gain)
+def _tighten(ub: np.ndarray, solved: np.ndarray, Y: np.ndarray, pt: DualPoint, p: Problem) -> None:
+    """Lower every unsolved slate's bound to L_S at the point's λ (in place).
+
+    With product groups the point's separable values are used (exact for a
+    slate that keeps every link y_i ≤ z_g) and slates that break a link are
+    refused (bound −inf).
+    """
+    value, on, off = pt.sep if pt.sep is not None else (pt.value, pt.on, pt.off)
+    bad = ~np.isfinite(on)  # a choice that cannot be on
+    never = ~np.isfinite(off)  # a choice that cannot be off
+    with np.errstate(invalid="ignore"):
+        gain = on - off
+    const = value - float(np.sum(np.maximum(on, off))) + float(np.sum(np.where(never, on, off)))
+    bound_all = const + Y @ np.where(bad | never, 0.0, gain)
+    if never.any():
+        bound_all[(~Y[:, never]).any(axis=1)] = -np.inf
     if bad.any():
         bound_all[Y[:, bad].any(axis=1)] = -np.inf
+    broken = p.breaks(Y)
+    if broken is not None:
+        bound_all[broken] = -np.inf
     np.minimum(ub, np.where(solved, ub, bound_all), out=ub)
 

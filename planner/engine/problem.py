@@ -2,7 +2,8 @@
 
 A *choice* is one boolean array over every on/off choice of every family, the
 families' parts laid end to end (products with a real on/off choice first,
-then the all-or-nothing options); :meth:`Problem.split` and
+then the all-or-nothing options, the product groups, the closable
+resources); :meth:`Problem.split` and
 :meth:`Problem.join` convert.  A choice fixes the mixed-integer problem to a
 convex QP (:mod:`planner.engine.slateqp`).
 """
@@ -12,7 +13,7 @@ from __future__ import annotations
 import numpy as np
 
 from models.data import MixData
-from planner.engine.blocks import Blocks, OptionBlocks, ProductBlocks, Response
+from planner.engine.blocks import Blocks, GroupBlocks, OptionBlocks, ProductBlocks, ResourceBlocks, Response
 from planner.engine.blocks.months import MonthBlocks
 
 
@@ -24,8 +25,14 @@ class Problem:
         # products over several periods are one block each over the periods; else one block per product
         self.products = ProductBlocks(d) if d.periods is None else MonthBlocks(d.periods)
         self.options = OptionBlocks(d)
-        self.families: list[Blocks] = [self.products, self.options]
+        self.groups = GroupBlocks(d, self.products)
+        self.resources = ResourceBlocks(d)
+        self.families: list[Blocks] = [self.products, self.options, self.groups, self.resources]
+        # a closable resource's row has capacity 0 of its own: opening it adds H_r (blocks.closable)
+        shut = np.asarray(d.res_closable, dtype=bool)
         self.capacity = np.asarray(d.capacity, dtype=float)
+        if shut.any():
+            self.capacity = np.where(shut, 0.0, self.capacity)
         self.m = int(self.capacity.size)
         sizes = [f.n_choices for f in self.families]
         self.bounds = np.r_[0, np.cumsum(sizes)].astype(int)
@@ -33,7 +40,7 @@ class Problem:
     @property
     def forced(self) -> bool:
         """True where every family gives forced responses, curvature and choice terms (flips, branching)."""
-        return all(f.forced for f in self.families)
+        return all(f.forced or f.n_choices == 0 for f in self.families)
 
     @property
     def n_choices(self) -> int:
@@ -48,10 +55,34 @@ class Problem:
         """One choice array from the families' parts."""
         return np.concatenate([np.asarray(p, dtype=bool) for p in parts]) if parts else np.zeros(0, dtype=bool)
 
-    def choice(self, running: np.ndarray, taken: np.ndarray | None = None) -> np.ndarray:
-        """The choice of a (n,) running mask and a (k,) option-taken mask (whole options; default none)."""
+    def choice(self, running: np.ndarray, taken: np.ndarray | None = None,
+               opened: np.ndarray | None = None) -> np.ndarray:
+        """The choice of a (n,) running mask, a (k,) option-taken mask (whole options; default none)
+        and an (m,) open mask of the resources (default all open); a group is on where a member runs."""
         t = np.zeros(self.options.cost.size, dtype=bool) if taken is None else np.asarray(taken, dtype=bool)
-        return self.join([self.products.choice_of(running), t[self.options.whole]])
+        run = np.asarray(running, dtype=bool) | ~self.d.can_stop
+        w = np.ones(self.m, dtype=bool) if opened is None else np.asarray(opened, dtype=bool)
+        return self.join([self.products.choice_of(running), t[self.options.whole],
+                          self.groups.needed(run) | self.groups.required, w[self.resources.rows]])
+
+    def group_on(self, choice: np.ndarray) -> np.ndarray:
+        """(groups,) bool: the groups on under ``choice``."""
+        return self.split(choice)[2]
+
+    def opened(self, choice: np.ndarray) -> np.ndarray:
+        """(m,) bool: the resources open under ``choice`` (those that cannot close always are)."""
+        w = np.ones(self.m, dtype=bool)
+        w[self.resources.rows] = self.split(choice)[3]
+        return w
+
+    def breaks(self, Y: np.ndarray) -> np.ndarray | None:
+        """Per row of a (rows × choices) array: does it break a group link? None without groups."""
+        if not self.groups.n_choices:
+            return None
+        a, b = self.bounds[0], self.bounds[1]
+        run = np.broadcast_to(~self.d.can_stop, (Y.shape[0], self.d.n)).copy()
+        run[:, self.products.free] = Y[:, a:b]
+        return self.groups.breaks(run, Y[:, self.bounds[2]:self.bounds[3]])
 
     def running(self, choice: np.ndarray) -> np.ndarray:
         """(n,) bool: the products that run under ``choice``."""
@@ -64,10 +95,16 @@ class Problem:
         return np.packbits(z).tobytes() + z.size.to_bytes(4, "little")
 
     def respond(self, lam: np.ndarray, choice: np.ndarray | None = None) -> list[Response]:
-        """Every family's best response at λ (with ``choice``: every choice forced to it)."""
+        """Every family's best response at λ (with ``choice``: every choice forced to it; only where
+        :attr:`forced`, so never with linked groups)."""
         if choice is None:
-            return [f.respond(lam) for f in self.families]
-        return [f.respond(lam, z) for f, z in zip(self.families, self.split(choice))]
+            resp = [f.respond(lam) for f in self.families]
+        else:
+            resp = [f.respond(lam, z) if f.n_choices else f.respond(lam)
+                    for f, z in zip(self.families, self.split(choice))]
+        if self.groups.n_choices:
+            resp[0], resp[2] = self.groups.couple(resp[0], resp[2])
+        return resp
 
     def curvature(self, lam: np.ndarray, choice: np.ndarray) -> np.ndarray:
         """(m × m) second derivative in λ of the priced value with ``choice`` forced (all families)."""
@@ -86,7 +123,9 @@ class Problem:
 
     def feasible(self, choice: np.ndarray) -> bool:
         """False where a family's part of ``choice`` cannot hold on its own."""
-        return all(f.feasible(z) for f, z in zip(self.families, self.split(choice)))
+        if not all(f.feasible(z) for f, z in zip(self.families, self.split(choice))):
+            return False
+        return not (self.groups.n_choices and self.breaks(np.asarray(choice, dtype=bool)[None, :])[0])
 
     def profit(self, values: list[np.ndarray], choice: np.ndarray) -> float:
         """True profit of the families' values under ``choice`` (currency, scaled)."""

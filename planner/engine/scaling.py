@@ -71,7 +71,7 @@ class Scales:
         if amt.size:
             np.maximum.at(row_max, d.use_res, np.abs(amt))
         row = pow2(np.where(d.capacity > 0, d.capacity, row_max))
-        sizes = np.r_[np.abs(peak_contribution(d)), np.abs(d.F), np.abs(d.opt_cost)]
+        sizes = np.r_[np.abs(peak_contribution(d)), np.abs(d.F), np.abs(d.opt_cost), d.grp_cost, d.res_fixed]
         sizes = sizes[np.isfinite(sizes) & (sizes > 0)]
         top = float(sizes.max()) if sizes.size else 1.0
         money = 1.0 if MONEY_PLAIN[0] <= top <= MONEY_PLAIN[1] else float(pow2(np.array([top / MONEY_TARGET]))[0])
@@ -89,7 +89,8 @@ class Scales:
                        committed=d.committed / s, min_run=d.min_run / s, cap=d.cap / s,
                        use_amt=d.use_amt * s[d.use_prod] / r[d.use_res], capacity=d.capacity / r,
                        opt_amount=d.opt_amount / r[None, :], opt_cost=d.opt_cost / mu,
-                       buy_cost=d.buy_cost * s / mu, buy_max=d.buy_max / s)
+                       buy_cost=d.buy_cost * s / mu, buy_max=d.buy_max / s,
+                       grp_cost=d.grp_cost / mu, res_fixed=d.res_fixed / mu)
 
     def volumes(self, x: np.ndarray) -> np.ndarray:
         """Scaled volumes in the scenario's units."""

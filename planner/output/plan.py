@@ -36,6 +36,10 @@ class ProductPlan:
     must_run: bool = False  # may not be shut down: its must_run, or a committed min_volume
     forced: str = ""  # why it may not be shut down: "must_run", "min_volume" (a commitment), "" if it may
     bought: float | None = None  # units of ``volume`` bought in (variable_cost counts them at buy_cost); None: no buy-in
+    # Filled by the decision analysis (planner.analysis.decisions); None where it was not run (then not in JSON):
+    # cost_of_reversal (currency, ≥ 0), switch_intercept (currency/unit), contribution_per_bottleneck_unit
+    # (currency per bottleneck unit), decision_checked, decision_note
+    decision: dict[str, Any] | None = None
 
     @property
     def sold_price(self) -> float | None:
@@ -48,6 +52,8 @@ class ProductPlan:
         d["standalone"] = self.standalone.to_dict()
         if self.bought is not None:
             d["bought"] = self.bought
+        if self.decision is not None:
+            d.update(self.decision)
         return d
 
 
@@ -67,9 +73,16 @@ class ResourcePlan:
     range_low_reason: str = ""  # why the range ends below
     range_high_reason: str = ""  # why the range ends above
     range_slates_checked: bool | None = None  # both ends re-checked for a better slate (None: not analysed)
+    open: bool = True  # False where the plan closes it (capacity then 0; fixed_cost saved)
+    fixed_cost: float = 0.0  # currency: the resource's own fixed cost for the period
+    closable: bool = False
+    show_fixed: bool = False  # the scenario uses resource fixed costs or product groups: 'open' and 'fixed_cost' shown
 
     def to_dict(self) -> dict[str, Any]:
         d = {f: getattr(self, f) for f in _RESOURCE_FIELDS}
+        if self.show_fixed:
+            d["open"] = self.open
+            d["fixed_cost"] = self.fixed_cost
         if d["shadow_price_range"] is not None:
             d["shadow_price_range"] = list(d["shadow_price_range"])
         return d
@@ -92,6 +105,13 @@ class Plan:
     solver: dict[str, Any] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
     extras: dict[str, Any] = field(default_factory=dict)
+    groups: list[GroupPlan] = field(default_factory=list)  # product groups (none: the key is left out)
+
+    @property
+    def fixed_paid(self) -> float:
+        """Group and resource fixed costs the plan pays (currency; not the plant-wide one)."""
+        return sum(g.fixed_cost for g in self.groups if g.running) + \
+            sum(r.fixed_cost for r in self.resources if r.open)
 
     @property
     def bottlenecks(self) -> list[ResourcePlan]:
@@ -110,6 +130,7 @@ class Plan:
             "plant_fixed_cost": self.plant_fixed_cost,
             "products": [p.to_dict() for p in self.products],
             "resources": [r.to_dict() for r in self.resources],
+            **({"product_groups": [g.to_dict() for g in self.groups]} if self.groups else {}),
             "solver": self.solver,
             "warnings": self.warnings,
             "note": LABOUR_NOTE,
@@ -144,8 +165,22 @@ class Plan:
             else pd.DataFrame(columns=["capacity", "used", "utilisation", "shadow_price", "binding", "unit"])
 
 
-_PRODUCT_FIELDS = [f.name for f in fields(ProductPlan) if f.name not in ("standalone", "bought")]
-_RESOURCE_FIELDS = [f.name for f in fields(ResourcePlan)]
+_PRODUCT_FIELDS = [f.name for f in fields(ProductPlan) if f.name not in ("standalone", "bought", "decision")]
+_RESOURCE_FIELDS = [f.name for f in fields(ResourcePlan)
+                    if f.name not in ("open", "fixed_cost", "closable", "show_fixed")]
+
+
+@dataclass
+class GroupPlan:
+    """A product group in the plan: its shared fixed cost is paid if any member runs (currency)."""
+
+    name: str
+    running: bool
+    fixed_cost: float  # currency, the group's fixed cost (paid only if running)
+    products: list[str] = field(default_factory=list)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"name": self.name, "running": self.running, "fixed_cost": self.fixed_cost}
 
 
 def readable_json(obj: dict[str, Any]) -> str:

@@ -174,6 +174,23 @@ def print_chosen(pick: dict, chosen: Plan, con: Console, scenario: Scenario | No
         con.print()
 
 
+def shared_cost_lines(p: Plan) -> list[str]:
+    """The answer on shared fixed costs: which product groups run, which resources close (escaped text)."""
+    out = []
+    if p.groups:
+        parts = [f"{escape(g.name)} {'runs' if g.running else 'stopped'} ({money(g.fixed_cost, p.currency)}"
+                 f"{'' if g.running else ' saved'})" for g in p.groups]
+        out.append("Product groups: " + " · ".join(parts))
+    closed = [r for r in p.resources if not r.open]
+    if closed:
+        out.append("Closed: " + " · ".join(f"[bold]{escape(r.name)}[/] (saves {money(r.fixed_cost, p.currency)}; "
+                                            "nothing that needs it is made)" for r in closed))
+    paid = sum(r.fixed_cost for r in p.resources if r.open)
+    if paid:
+        out.append(f"Resource fixed costs paid: {money(paid, p.currency)}")
+    return out
+
+
 def print_plan(p: Plan, console: Console | None = None, standalone: bool = True, scenario: Scenario | None = None,
                chosen: Plan | None = None) -> None:
     """Print the whole plan: status, products, resources, capacity analysis, the plan with the options
@@ -186,6 +203,8 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True,
     con = console or Console()
     p = display_copy(p)
     con.print(status_line(p))
+    for line in shared_cost_lines(p):
+        con.print(line)
     con.print()
     con.print(products_table(p, con, scenario))
     note = label_note(p, scenario)
@@ -220,6 +239,9 @@ def print_plan(p: Plan, console: Console | None = None, standalone: bool = True,
         from planner.output.capacity import print_capacity
 
         print_capacity(p, con)
+    from planner.output.decisions import print_decisions
+
+    print_decisions(p, con)
     if chosen is not None and p.extras.get("option_pick") is not None:
         print_chosen(p.extras["option_pick"], chosen, con, scenario)
     if standalone:

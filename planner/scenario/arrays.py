@@ -34,6 +34,8 @@ def mix_data(s: Scenario, extra_capacity: dict[str, float] | None = None) -> Mix
         return np.fromiter((getattr(p, field) for p in P), dtype=float, count=len(P))
 
     committed = arr("min_volume")
+    prod_index = {p.name: i for i, p in enumerate(P)}
+    members = [(g, prod_index[n]) for g, grp in enumerate(s.product_groups) for n in dict.fromkeys(grp.products)]
     return MixData(
         products=tuple(p.name for p in P),
         resources=tuple(r.name for r in s.resources),
@@ -44,6 +46,12 @@ def mix_data(s: Scenario, extra_capacity: dict[str, float] | None = None) -> Mix
         use_res=np.array(rows, dtype=np.int64), use_prod=np.array(cols, dtype=np.int64),
         use_amt=np.array(vals, dtype=float), capacity=capacity,
         buy_cost=np.array([p.buy_cost or 0.0 for p in P], dtype=float), buy_max=arr("buy_max"),
+        groups=tuple(g.name for g in s.product_groups),
+        grp_cost=np.array([g.fixed_cost for g in s.product_groups], dtype=float),
+        grp_idx=np.array([g for g, _ in members], dtype=np.int64),
+        grp_prod=np.array([i for _, i in members], dtype=np.int64),
+        res_fixed=np.array([r.fixed_cost for r in s.resources], dtype=float),
+        res_closable=np.array([r.closable for r in s.resources], dtype=bool),
     )
 
 

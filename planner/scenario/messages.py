@@ -18,7 +18,8 @@ from planner.errors import Problem
 from planner.scenario.names import did_you_mean, shown
 from planner.scenario.numbers import SIZE_FIXES, Unusable
 from planner.scenario.rawdict import clean_name, entries
-from planner.scenario.schema import PER_PERIOD_TAGS, Change, Correlation, Option, Product, Resource, Scenario, Uncertainty, Variant
+from planner.scenario.schema import (PER_PERIOD_TAGS, Change, Correlation, Option, Product, ProductGroup, Resource,
+                                     Scenario, Uncertainty, Variant)
 from planner.scenario.units import amount_hint
 
 FIELDS = {
@@ -26,6 +27,7 @@ FIELDS = {
     "products": set(Product.model_fields) | {"demand"},
     "resources": set(Resource.model_fields),
     "options": set(Option.model_fields),
+    "product_groups": set(ProductGroup.model_fields),
     "uncertainty": set(Uncertainty.model_fields),
     "correlations": set(Correlation.model_fields),
     "variants": set(Variant.model_fields),
@@ -59,7 +61,8 @@ def where_of(raw: dict[str, Any], loc: tuple[Any, ...]) -> str:
     i = 0
     while i < len(loc):
         part = loc[i]
-        if part in ("products", "resources", "options", "uncertainty", "correlations", "variants", "changes") \
+        if part in ("products", "resources", "options", "product_groups", "uncertainty", "correlations", "variants",
+                    "changes") \
                 and i + 1 < len(loc) and isinstance(loc[i + 1], int):
             parts.append(label(raw, str(part), loc[i + 1]))
             i += 2
@@ -87,6 +90,7 @@ _SECTION_HINT = {
     "products": "write each product as a list entry starting '- name: ...'",
     "resources": "write each resource as a list entry starting '- name: ...'",
     "options": "write each option as a list entry starting '- name: ...'",
+    "product_groups": "write each group as a list entry starting '- name: ...'",
 }
 
 

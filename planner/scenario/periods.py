@@ -26,7 +26,7 @@ PER_PRODUCT = ("price_intercept", "price_slope", "unit_cost", "max_volume", "min
 #: Product fields that only apply with ``periods``.
 STOCK_FIELDS = ("holding_cost", "initial_stock", "final_stock", "stock_usage", "setup_cost", "setup_time")
 #: Sections and fields not planned with periods yet.
-NOT_YET_SECTIONS = ("options", "uncertainty", "correlations", "variants")
+NOT_YET_SECTIONS = ("options", "uncertainty", "correlations", "variants", "product_groups")
 
 
 def _used(x: Any) -> bool:
@@ -106,6 +106,10 @@ def period_problems(raw: dict[str, Any]) -> list[Problem]:
                                     "give price_intercept and price_slope per period"))
     for i, r in indexed(raw, "resources"):
         length(f"{label(raw, 'resources', i)}.capacity", r.get("capacity"))
+        for f in ("fixed_cost", "closable"):
+            if r.get(f) not in (None, False, 0):
+                problems.append(Problem(f"{label(raw, 'resources', i)}.{f}", "is not supported with periods yet",
+                                        f"remove {f}, or plan one period at a time"))
     for section in NOT_YET_SECTIONS:
         if raw.get(section):
             problems.append(Problem(section, "is not supported with periods yet",

@@ -171,6 +171,21 @@ class Resource(_Strict):
     """Unit of the capacity: h, kg, m² ... (text, for reports and unit checks)."""
     kind: Literal["work_centre", "material", "other"] = "other"
     description: str = ""
+    fixed_cost: NonNegative = 0.0
+    """The resource's own fixed cost for the period (currency): crew, lease; paid while it is open."""
+    closable: bool = False
+    """True if the resource may be closed for the period: closing saves fixed_cost and its capacity is then 0."""
+
+
+class ProductGroup(_Strict):
+    """Products sharing one fixed cost (a line, a family, a tooling set): paid if any member runs."""
+
+    name: Name
+    """Unique name of the group, shown in every report."""
+    products: list[Name] = Field(min_length=1)
+    """Names of the member products; a product may belong to several groups."""
+    fixed_cost: NonNegative = 0.0
+    """Paid if any member runs, avoided only if every member stops (currency per period)."""
 
 
 class Option(_Strict):
@@ -282,6 +297,7 @@ class Scenario(_Strict):
     products: list[Product] = Field(min_length=1)
     resources: list[Resource] = Field(default_factory=list)
     options: list[Option] = Field(default_factory=list)
+    product_groups: list[ProductGroup] = Field(default_factory=list)
     uncertainty: list[Uncertainty] = Field(default_factory=list)
     correlations: list[Correlation] = Field(default_factory=list)
     variants: list[Variant] = Field(default_factory=list)

@@ -31,7 +31,7 @@ MAX_PRODUCTS = 100_000
 MAX_RESOURCES = 10_000
 MAX_OPTIONS = 10_000
 
-_NAMED = ("products", "resources", "options", "variants")
+_NAMED = ("products", "resources", "options", "variants", "product_groups")
 
 
 def _name_problems(raw: dict[str, Any]) -> list[Problem]:
@@ -65,7 +65,7 @@ def _name_problems(raw: dict[str, Any]) -> list[Problem]:
 
 #: Text checked by the name rule (planner.scenario.names), per section; descriptions may hold line breaks.
 _STRICT = {"scenario": ("name", "currency", "period"), "products": ("name", "unit"), "resources": ("name", "unit"),
-           "options": ("name",), "uncertainty": ("product", "resource"), "variants": ("name",)}
+           "options": ("name",), "product_groups": ("name",), "uncertainty": ("product", "resource"), "variants": ("name",)}
 _KEYED = {"products": ("usage",), "options": ("adds", "adds_up_to")}
 
 
@@ -82,7 +82,7 @@ def _character_problems(raw: dict[str, Any]) -> list[Problem]:
     for key in _STRICT["scenario"]:
         check(key, raw.get(key))
     check("description", raw.get("description"), line_breaks=True)
-    for section in ("products", "resources", "options", "uncertainty", "correlations", "variants"):
+    for section in ("products", "resources", "options", "product_groups", "uncertainty", "correlations", "variants"):
         for i, e in indexed(raw, section):
             at = label(raw, section, i) if section in _NAMED else f"{section}[{i + 1}]"
             for key in _STRICT.get(section, ()):
@@ -93,7 +93,7 @@ def _character_problems(raw: dict[str, Any]) -> list[Problem]:
                     for k in e[key]:
                         if isinstance(k, str) and bad_character(k) is not None:  # (the location only when needed)
                             check(f"{at}.{key}.{shown(k)}", k)
-            if section == "correlations" and isinstance(e.get("products"), (list, tuple)):
+            if section in ("correlations", "product_groups") and isinstance(e.get("products"), (list, tuple)):
                 for n in e["products"]:
                     check(f"{at}.products", n)
             if section == "products" and isinstance(e.get("demand_fit"), dict):
@@ -190,7 +190,42 @@ def _cross_problems(raw: dict[str, Any]) -> list[Problem]:
                     if clean_name(res) is not None and res.strip() not in resources:
                         hint = did_you_mean(str(res), resources) or "name a resource defined under resources"
                         problems.append(Problem(f"{at}.{key}.{res}", "names a resource that is not defined", hint))
+    problems += _group_problems(raw) + _buy_in_with_groups(raw)
     problems += uncertainty_problems(raw) + variant_problems(raw) + period_problems(raw)
+    return problems
+
+
+def _buy_in_with_groups(raw: dict[str, Any]) -> list[Problem]:
+    """Buying in is not yet planned together with product groups or closable resources: refused by name."""
+    if not raw.get("product_groups") and not any(r.get("closable") not in (None, False, 0)
+                                                 for _, r in indexed(raw, "resources")):
+        return []
+    return [Problem(f"{label(raw, 'products', i)}.buy_max", "buying in is not supported together with product groups "
+                    "or closable resources yet", "remove buy_max and buy_cost, or the groups and closable resources")
+            for i, p in indexed(raw, "products") if p.get("buy_max") not in (None, 0, False)]
+
+
+def _group_problems(raw: dict[str, Any]) -> list[Problem]:
+    """Members of product groups: each a defined product, named once per group."""
+    problems: list[Problem] = []
+    products = {n for _, p in indexed(raw, "products") if (n := clean_name(p.get("name")))}
+    for i, g in indexed(raw, "product_groups"):
+        at = label(raw, "product_groups", i)
+        members = g.get("products")
+        if not isinstance(members, (list, tuple)):
+            continue  # reported by the schema
+        seen: set[str] = set()
+        for n in members:
+            if clean_name(n) is None:
+                continue  # reported by the schema or the name rule
+            name = n.strip()
+            if name not in products:
+                hint = did_you_mean(name, products) or "name a product defined under products"
+                problems.append(Problem(f"{at}.products.{shown(name)}", "names a product that is not defined", hint))
+            elif name in seen:
+                problems.append(Problem(f"{at}.products.{shown(name)}", "is listed twice in the group",
+                                        "list each member once"))
+            seen.add(name)
     return problems
 
 

@@ -30,6 +30,11 @@ def plan_slate(p: Plan, can_stop: np.ndarray) -> np.ndarray:
     return np.array([x.running for x in p.products], dtype=bool) | ~can_stop
 
 
+def plan_open(p: Plan) -> np.ndarray:
+    """(m,) bool: the resources the plan keeps open (a closed one stays closed in every re-solve)."""
+    return np.array([r.open for r in p.resources], dtype=bool)
+
+
 def add_capacity_analysis(p: Plan, s: Scenario, choose: bool = False, rel_gap: float = 1e-7,
                           budget: float | None = None, deadline: float | None = None) -> Plan:
     """Fill each resource's shadow-price range and the options' values (and the joint pick) in ``p``.
@@ -57,7 +62,7 @@ def add_capacity_analysis(p: Plan, s: Scenario, choose: bool = False, rel_gap: f
 
 def _analyse(p: Plan, s: Scenario, choose: bool, rel_gap: float, budget: float | None,
              hard: float | None) -> Plan:
-    d = mix_data(s)
+    d = mix_data(s).with_closed(plan_open(p))  # the plan's closed resources stay closed
     if np.any(d.buy_max > 0):  # the fixed-slate parametric QP of the ranges has no bought-in columns yet
         raise PlannerError("shadow-price ranges and option values do not yet follow products that buy in "
                            "(buy_max); the plan and its shadow prices stand")

@@ -50,8 +50,13 @@ class SlateQP:
     def of(cls, d: MixData, slate: np.ndarray) -> "SlateQP":
         slate = np.asarray(slate, dtype=bool)
         H = d.usage_dense() if len(d.resources) else np.zeros((0, d.n))
+        # fixed costs of the slate: its products', its groups' (paid where a member is on) and every
+        # resource's own (a plan's closed resources come with theirs at 0: MixData.with_closed)
+        K = float(d.F[slate].sum()) + float(np.sum(d.res_fixed))
+        if d.n_groups:
+            K += float(d.grp_cost[(d.group_members() & slate).any(axis=1)].sum())
         return cls(d.margin, d.b, H, np.where(slate, d.run_floor, 0.0), np.where(slate, d.qp_upper, 0.0),
-                   float(d.F[slate].sum()), d.cap, d.products, d.resources)
+                   K, d.cap, d.products, d.resources)
 
     def profit(self, x: np.ndarray) -> float:
         return float(self.c @ x - self.b @ (x * x) - self.K)

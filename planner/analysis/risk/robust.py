@@ -25,6 +25,7 @@ from models.data import MixData
 
 from planner.output.plan import Plan
 from planner.scenario.schema import Scenario
+from planner.analysis.capacity.analysis import plan_open
 from planner.analysis.risk.evaluate import evaluate, sample_arrays
 from planner.engine import Engine
 from planner.analysis.risk.sampling import draw_samples
@@ -40,11 +41,12 @@ def robust_choice(s: Scenario, base: MixData, point: Plan, arrays: dict[str, np.
     counts = Counter(map(tuple, np.asarray(running, dtype=bool).tolist()))
     slates = [start] + [sl for sl, _ in counts.most_common() if sl != start][: top - 1]
     engine = Engine(base)
+    opened = plan_open(point)
     check = sample_arrays(base, draw_samples(s, len(arrays["a"]), seed + CHECK_SEED_OFFSET))
     rows = []
     for sl in slates:
         slate = np.array(sl, dtype=bool)
-        got = engine.slate(slate)
+        got = engine.slate(slate, opened=opened)  # the plan's closed resources stay closed
         if got.status != "optimal":
             continue
         obj, vol = got.objective, got.volume

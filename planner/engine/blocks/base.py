@@ -62,6 +62,7 @@ class Response:
     off: np.ndarray  # (K,) ... when forced off (−inf: impossible)
     fixed: float  # priced profit of the family's blocks that have no choice (so value = fixed + Σ max(on, off))
     x: np.ndarray  # the family's variables at the best response (e.g. volumes)
+    sep: tuple | None = None  # (value, on, off) before a coupling (groups) made them joint; None: the same
 
 
 @dataclass
