@@ -162,3 +162,22 @@ def test_combinations_not_planned_yet_are_refused_by_name(tmp_path):
                  "resources[press].fixed_cost: is not supported with periods yet",
                  "product_groups: is not supported with periods yet"):
         assert text in out.output
+
+
+def test_sweep_and_risk_refuse_what_they_do_not_follow_yet(tmp_path):
+    """A sweep with a closable resource and risk with group or resource fixed costs are refused (exit 2),
+    not answered with slate paths that reopen the resource or profits that leave those costs out."""
+    from click.testing import CliRunner
+
+    from planner.cli.main import main
+    f = tmp_path / "s.yaml"
+    f.write_text("name: t\nproducts:\n"
+                 "  - {name: a, price_intercept: 400, price_slope: 0.5, unit_cost: 150, usage: {saw: 2, cell: 1}}\n"
+                 "  - {name: b, price_intercept: 120, price_slope: 0.1, unit_cost: 60, fixed_cost: 2000,"
+                 " usage: {saw: 1, cell: 0.5}}\nresources:\n  - {name: saw, capacity: 900}\n"
+                 "  - {name: cell, capacity: 300, fixed_cost: 15000, closable: true}\n"
+                 "uncertainty:\n  - {product: a, field: price_intercept, distribution: normal, sd: 20}\n")
+    out = CliRunner().invoke(main, ["sweep", str(f), "--resource", "saw", "--to", "1200"])
+    assert out.exit_code == 2 and "a capacity sweep does not yet follow resources that may close" in out.output
+    out = CliRunner().invoke(main, ["risk", str(f), "--samples", "5", "--workers", "0"])
+    assert out.exit_code == 2 and "planner risk does not yet count the fixed costs" in out.output

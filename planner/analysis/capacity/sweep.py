@@ -186,6 +186,9 @@ def run_sweep(s: Scenario, resource: str, start: float | None, stop: float, step
     if np.any(d.buy_max > 0):
         raise ScenarioError([Problem("products.buy_max", "a capacity sweep does not yet follow products that "
                                      "buy in", "plan each capacity with planner plan, or set buy_max to 0")])
+    if np.any(d.res_closable):  # its slate paths re-solve with every resource open
+        raise ScenarioError([Problem("resources.closable", "a capacity sweep does not yet follow resources that "
+                                     "may close", "plan each capacity with planner plan, or set closable to false")])
     r = names.index(resource)
     unit = s.resources[r].unit
     start = float(d.capacity[r]) if start is None else float(start)

@@ -175,6 +175,10 @@ def run_risk(scenario: Scenario | str | Path, samples: int = 1000, seed: int = 0
     if np.any(base.buy_max > 0):  # evaluate.py prices a plan's use of resources from its sales alone
         raise ScenarioError([Problem("products.buy_max", "planner risk does not yet follow products that buy in",
                                      "set buy_max to 0 for the risk run, or plan the samples one by one")])
+    if base.n_groups or np.any(base.res_fixed > 0) or np.any(base.res_closable):  # evaluate.py: product costs only
+        raise ScenarioError([Problem("product_groups, resources.fixed_cost", "planner risk does not yet count the fixed costs of product "
+                                     "groups and resources", "plan the samples one by one with planner plan, or "
+                                     "leave product_groups and resource fixed costs out for the risk run")])
     point = make_plan(scenario, rel_gap=rel_gap)
     draws = draw_samples(scenario, samples, seed)
     arrays = sample_arrays(base, draws)
