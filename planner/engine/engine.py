@@ -205,8 +205,10 @@ class Engine:
                                   if limits else ["the model is infeasible although every commitment fits; "
                                                   "please report this"])
         if found.best is None:
+            hint = (" (try a longer --time-limit or a looser --gap, or report it)" if d.periods is not None
+                    else " (try --solver scip, or report it)")  # --solver is refused with periods
             raise SolverError("no feasible plan was found" + (": " + "; ".join(found.messages) if found.messages
-                                                              else "") + " (try --solver scip, or report it)")
+                                                              else "") + hint)
         sol = self._from_slate(d, p, found.best, found.bound, found.status, found.strategy)
         sol.rounds, sol.dual_steps = found.rounds, found.dual_steps
         sol.messages = list(found.messages) + list(sol.messages)
