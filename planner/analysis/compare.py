@@ -15,12 +15,12 @@ any option a variant takes.
 
 from __future__ import annotations
 
-import os
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from planner.analysis.cluster import dask_client
 from planner.errors import EXIT_BAD_INPUT, InfeasibleError, PlannerError, ScenarioError, SolverError
 from planner.output.plan import LABOUR_NOTE, Plan
 from planner.scenario.names import did_you_mean
@@ -221,32 +221,6 @@ def _run(entries: list[Entry], scenarios: list[Scenario], rel_gap: float, time_l
 
 def _on_dask(scenarios, rel_gap, time_limit, workers, scheduler, client):
     """Each scenario planned as one Dask task; results in the scenarios' order."""
-    from distributed import Client, LocalCluster
-
-    own_cluster = own_client = None
-    try:
-        if client is None:
-            if scheduler:
-                try:
-                    client = own_client = Client(scheduler, timeout=CONNECT_TIMEOUT)
-                except Exception as e:  # unreachable, refused or malformed: the address is at fault
-                    from planner.analysis.risk.run import ClusterError
-
-                    raise ClusterError(f"cannot reach the Dask scheduler at {scheduler}: {e} (check the address, "
-                                       "or leave --scheduler out for a local cluster)") from None
-            else:
-                import logging
-
-                n = workers or min(os.cpu_count() or 1, len(scenarios))
-                own_cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
-                                           dashboard_address=None, silence_logs=logging.ERROR)
-                client = own_client = Client(own_cluster)
-        n_workers = len(client.scheduler_info().get("workers", {})) or 1
-        where = scheduler or ("local cluster" if own_cluster else str(getattr(client, "scheduler", "client")))
+    with dask_client(scheduler, workers, client, CONNECT_TIMEOUT, most=len(scenarios)) as (client, n_workers, where):
         futures = [client.submit(plan_entry, sc, rel_gap, time_limit, pure=False) for sc in scenarios]
         return client.gather(futures), n_workers, where
-    finally:
-        if own_client is not None:
-            own_client.close()
-        if own_cluster is not None:
-            own_cluster.close()

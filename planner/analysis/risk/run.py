@@ -16,7 +16,6 @@ Profits include the plant-wide fixed cost (currency per period), as ``Plan.profi
 
 from __future__ import annotations
 
-import os
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -26,11 +25,12 @@ import numpy as np
 
 from models.data import MixData
 
-from planner.errors import EXIT_BAD_INPUT, InfeasibleError, PlannerError, Problem, ScenarioError, SolverError
+from planner.errors import InfeasibleError, Problem, ScenarioError, SolverError
 from planner.output.plan import Plan
 from planner.scenario.arrays import mix_data
 from planner.scenario.schema import Scenario
 from planner.engine import DEFAULT_GAP, Engine
+from planner.analysis.cluster import ClusterError, dask_client  # noqa: F401  (ClusterError: offered here too)
 from planner.analysis.risk.evaluate import evaluate_plan, sample_arrays
 from planner.analysis.risk.sampling import draw_samples
 
@@ -40,11 +40,6 @@ CHUNK = 25
 CONNECT_TIMEOUT = "10s"
 STATUS = ("optimal", "infeasible", "failed")
 
-
-class ClusterError(PlannerError):
-    """The Dask scheduler could not be reached (bad input: the address; exit 2)."""
-
-    exit_code = EXIT_BAD_INPUT
 
 
 def solve_chunk(base: MixData, start: np.ndarray, points: np.ndarray, rel_gap: float,
@@ -224,26 +219,9 @@ def _run_chunks(base, start, points, rel_gap, plant, pieces, scheduler, workers,
             if progress:
                 progress(i + 1, total)
         return results, 1, "in-process"
-    from distributed import Client, LocalCluster, as_completed
+    from distributed import as_completed
 
-    own_cluster = own_client = None
-    try:
-        if client is None:
-            if scheduler:
-                try:
-                    client = own_client = Client(scheduler, timeout=CONNECT_TIMEOUT)
-                except Exception as e:  # unreachable, refused or malformed: the address is at fault
-                    raise ClusterError(f"cannot reach the Dask scheduler at {scheduler}: {e} "
-                                       "(check the address, or leave --scheduler out for a local cluster)") from None
-            else:
-                import logging
-
-                n = workers or os.cpu_count() or 1
-                own_cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
-                                           dashboard_address=None, silence_logs=logging.ERROR)
-                client = own_client = Client(own_cluster)
-        n_workers = len(client.scheduler_info().get("workers", {})) or 1
-        where = scheduler or ("local cluster" if own_cluster else str(getattr(client, "scheduler", "client")))
+    with dask_client(scheduler, workers, client, CONNECT_TIMEOUT) as (client, n_workers, where):
         shared = client.scatter([base, start, points], broadcast=True)
         futures = [client.submit(solve_chunk, *shared, rel_gap, piece, plant, pure=False) for piece in pieces]
         order = {f.key: i for i, f in enumerate(futures)}
@@ -253,8 +231,3 @@ def _run_chunks(base, start, points, rel_gap, plant, pieces, scheduler, workers,
             if progress:
                 progress(done, total)
         return results, n_workers, where
-    finally:
-        if own_client is not None:
-            own_client.close()
-        if own_cluster is not None:
-            own_cluster.close()
