@@ -357,3 +357,28 @@ def test_buying_in_with_periods_is_refused_by_name(tmp_path):
     out = CliRunner().invoke(main, ["plan", str(f)])
     assert out.exit_code == 2
     assert "products[shelf].buy_max: buying in is not supported with periods yet" in out.output
+
+
+def test_final_stock_commitment_and_decisions_over_periods_are_said_plainly(tmp_path):
+    """A product that must leave more stock than it starts with is 'committed' by its final_stock (not
+    'must_run'), and the product decisions are not reported over periods (flagged and warned of)."""
+    import json
+
+    from click.testing import CliRunner
+
+    from planner.cli.main import main
+    f = tmp_path / "s.yaml"
+    f.write_text("name: t\nperiods: [Jan, Feb]\nproducts:\n"
+                 "  - {name: mug, price_intercept: 18, price_slope: 0.002, unit_cost: 5.5, fixed_cost: 400,"
+                 " usage: {kiln: 0.05}}\n"
+                 "  - {name: platter, price_intercept: 70, price_slope: 0.03, unit_cost: 21, fixed_cost: 900,"
+                 " final_stock: 50, usage: {kiln: 0.4}}\nresources:\n  - {name: kiln, capacity: [400, 300]}\n")
+    out = tmp_path / "p.json"
+    res = CliRunner().invoke(main, ["plan", str(f), "--json", str(out)])
+    assert res.exit_code == 0, res.output
+    assert "committed: its final_stock makes it run" in res.output
+    plan = json.loads(out.read_text())
+    platter = next(p for p in plan["products"] if p["name"] == "platter")
+    assert platter["forced"] == "final_stock" and platter["running"] is True
+    assert all(p.get("decision_checked") is False for p in plan["products"])
+    assert any("not computed yet for plans over periods" in w for w in plan["warnings"])

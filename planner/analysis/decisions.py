@@ -84,6 +84,12 @@ def add_decision_analysis(p: Plan, s: Scenario, rel_gap: float = 1e-7, budget: f
             x.decision = unchecked("the plan is not certified")
         p.warnings.append("decision analysis not done: the plan stopped at the time limit")
         return p
+    if s.periods is not None:  # forced run/stop re-solves over periods are not checked yet: never shown wrong
+        for x in p.products:
+            x.decision = unchecked("not computed yet for plans over periods")
+        p.warnings.append("product decisions (cost of reversal, switch intercept) are not computed yet for plans "
+                          "over periods")
+        return p
     if limit is not None and len(p.products) > limit:
         for x in p.products:
             x.decision = unchecked(f"more than {limit} products")

@@ -49,7 +49,8 @@ def period_plan(s, d: MixData, sol, info: dict[str, Any], warnings: list[str]) -
             name=p.name, running=running, volume=volume, price=revenue / volume if volume > 0 else float(pd.a[i, 0]),
             revenue=revenue, variable_cost=var_cost, contribution=revenue - var_cost, fixed_cost=fixed,
             profit=revenue - var_cost - fixed, unit=p.unit, standalone=econ[i], must_run=bool(d.must_run[i]),
-            forced="must_run" if p.must_run else ("min_volume" if pd.lo[i].sum() > 0 else "")))
+            forced="must_run" if p.must_run else ("min_volume" if pd.lo[i].sum() > 0 else
+                                                   ("final_stock" if d.must_run[i] else ""))))
         prod_rows[p.name] = {"holding_cost": holding, "rows": [
             {"period": name, "made": float(made[i, t]), "sold": float(sold[i, t]), "stock": float(stock[i, t]),
              "price": float(price[i, t]) if sold[i, t] > 0 else None} for t, name in enumerate(pd.periods)]}

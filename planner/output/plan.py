@@ -34,7 +34,9 @@ class ProductPlan:
     unit: str
     standalone: Standalone
     must_run: bool = False  # may not be shut down: its must_run, or a committed min_volume
-    forced: str = ""  # why it may not be shut down: "must_run", "min_volume" (a commitment), "" if it may
+    # why it may not be shut down: "must_run", "min_volume" (a commitment), "final_stock" (over periods:
+    # more stock to leave than there is at the start), "" if it may
+    forced: str = ""
     bought: float | None = None  # units of ``volume`` bought in (variable_cost counts them at buy_cost); None: no buy-in
     # Filled by the decision analysis (planner.analysis.decisions); None where it was not run (then not in JSON):
     # cost_of_reversal (currency, ≥ 0), switch_intercept (currency/unit), contribution_per_bottleneck_unit

@@ -44,10 +44,10 @@ def sold_price(x: ProductPlan) -> float | None:
 
 
 def run_label(x: ProductPlan, scenario: Scenario | None = None) -> str:
-    """Why a product runs: 'must' (must_run: may not be shut down), 'committed' (its min_volume > 0 makes
-    it run), 'yes' (chosen to run) or 'off' (shut down)."""
+    """Why a product runs: 'must' (must_run: may not be shut down), 'committed' (its min_volume > 0, or a
+    final_stock beyond its initial stock, makes it run), 'yes' (chosen to run) or 'off' (shut down)."""
     if x.must_run:
-        return "committed" if x.forced == "min_volume" else "must"
+        return "committed" if x.forced in ("min_volume", "final_stock") else "must"
     return "yes" if x.running else "[red]off[/]"
 
 
@@ -129,7 +129,9 @@ def label_note(p: Plan, scenario: Scenario | None) -> str:
     if "must" in labels:
         parts.append("must: must_run, may not be shut down")
     if "committed" in labels:
-        parts.append("committed: its min_volume makes it run")
+        why = {x.forced for x in shown_products(p) if run_label(x, scenario) == "committed"}
+        parts.append("committed: its " + " or ".join(f for f in ("min_volume", "final_stock") if f in why)
+                     + " makes it run")
     if any(sold_price(x) is None for x in shown_products(p)):
         parts.append("price —: nothing sold, so no price")
     return "; ".join(parts)
