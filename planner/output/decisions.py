@@ -60,8 +60,9 @@ def decisions_table(p: Plan, console: Console | None = None, title: str = "Produ
         return t
 
     t = fit_table(build, console, ["note", "per bottleneck unit", "flips at intercept"])
-    if neck:
-        t.caption = f"per bottleneck unit: (price − unit cost) per unit of {escape(neck)}"
+    if neck and any(str(c.header) == "per bottleneck unit" for c in t.columns):  # the key, under the column shown
+        key = f"per bottleneck unit: (price − unit cost) per unit of {escape(neck)}"
+        t.caption = f"{t.caption}\n{key}" if t.caption else key
     return t
 
 
