@@ -225,3 +225,38 @@ def test_kkt_polish_corrects_a_misread_active_set():
     assert got is not None
     x, lam = got
     assert x == pytest.approx([3.0, 0.0], abs=1e-12) and lam == pytest.approx([4.0], abs=1e-12)
+
+
+def test_a_stalled_interior_point_answer_is_used_only_when_both_solutions_are_feasible(monkeypatch):
+    """HiGHS's 'hipo' may end "no progress" (status Unknown) at a solved point (seen on 200 products ×
+    13 periods); such an answer is used, polished, and equals the active-set QP's optimum.  A stall
+    whose primal or dual solution is not feasible, or whose objectives are apart, is not used."""
+    from types import SimpleNamespace
+
+    from planner.engine import highs
+
+    _, d = _data(120, 8, 9, fixed="none")
+    p = Engine(d).problem(d)
+    choice = np.zeros(p.n_choices, dtype=bool)
+    ref = solve_choice(p, choice, method="highs-qp")
+    real = highs.run
+
+    def stalled(h):
+        real(h)
+        return highs.Outcome.ERROR  # as if HiGHS had reported "Unknown"
+
+    monkeypatch.setattr(highs, "run", stalled)
+    got = solve_choice(p, choice, method="hipo")
+    assert got.status == "optimal" and got.method.startswith("hipo-stalled")
+    assert got.objective == pytest.approx(ref.objective, rel=1e-9)
+    monkeypatch.setattr(highs, "run", real)
+
+    def fake(primal: int, dual: int, gap: float):
+        info = SimpleNamespace(primal_solution_status=primal, dual_solution_status=dual,
+                               primal_dual_objective_error=gap)
+        return SimpleNamespace(getInfo=lambda: info)
+
+    assert highs.stalled_but_solved(fake(2, 2, 1e-9), 1e-7)
+    assert not highs.stalled_but_solved(fake(1, 2, 1e-9), 1e-7)
+    assert not highs.stalled_but_solved(fake(2, 0, 1e-9), 1e-7)
+    assert not highs.stalled_but_solved(fake(2, 2, 1e-3), 1e-7)

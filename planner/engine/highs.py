@@ -96,6 +96,15 @@ def outcome(h) -> Outcome:
     return Outcome.ERROR
 
 
+def stalled_but_solved(h, gap: float) -> bool:
+    """True where ``h`` ended without a status (e.g. interior point "no progress") but HiGHS calls its
+    primal and dual solutions feasible and their relative objective gap is at most ``gap``."""
+    info = h.getInfo()
+    feasible = 2  # HiGHS's kSolutionStatusFeasible
+    return (int(info.primal_solution_status) == feasible and int(info.dual_solution_status) == feasible
+            and float(info.primal_dual_objective_error) <= gap)
+
+
 @lru_cache(maxsize=1)
 def has_ipm() -> bool:
     """True if HiGHS's interior-point QP ('hipo', from highspy-extras) is installed."""

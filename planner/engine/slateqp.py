@@ -24,7 +24,10 @@ of columns strictly inside their bounds.  Either answer is then polished on
 its active set by the closed-form KKT conditions (:mod:`planner.engine.kkt`),
 which makes it exact to rounding and is checked before use; if it cannot be
 polished the other method is tried, and an unpolished answer is kept only
-as HiGHS's own optimum.
+as HiGHS's own optimum.  An interior-point run that stalls ("no progress")
+with feasible primal and dual solutions within ``IPM_STALL_ACCEPT`` of each
+other is used as 'hipo-stalled' (polished where it can be): its value is a
+feasible plan's, so any certificate built on it stays valid.
 """
 
 from __future__ import annotations
@@ -37,7 +40,7 @@ import numpy as np
 from planner.engine import highs
 from planner.engine.kkt import polish
 from planner.engine.problem import Problem
-from planner.engine.settings import ASM_RETRY_UP_TO, IPM_FROM
+from planner.engine.settings import ASM_RETRY_UP_TO, IPM_FROM, IPM_STALL_ACCEPT, SLACK_ROW
 
 #: Largest rows × columns of a fixed-choice QP polished on its dense matrix (only QPs with a family's own
 #: rows reach it: the shared rows are few).
@@ -141,20 +144,21 @@ def solve_choice(p: Problem, choice: np.ndarray, time_limit: float | None = None
 def _solve_once(p: Problem, qp: _QP, choice: np.ndarray, time_limit: float | None, threads: int, seed: int,
                 method: str, t0: float) -> SlateResult:
     m, n = qp.cap.size, qp.ncol
-    h = highs.new(threads, seed, time_limit=highs.time_option(time_limit))
-    if method == "hipo":
-        h.setOptionValue("solver", "hipo")
-    start, index, value = highs.csc(n, qp.rows, qp.cols, qp.amounts)
-    quad = np.flatnonzero(qp.q > 0)
-    q_start = np.searchsorted(quad, np.arange(n + 1)).astype(np.int32)
-    hi = np.where(np.isfinite(qp.hi), qp.hi, highs.INF)
-    try:
-        h.passModel(n, m, int(index.size), int(quad.size), 1, 1, 1, 0.0, -qp.c, qp.lo, hi,
-                    np.full(m, -highs.INF), qp.cap, start, index, value,
-                    q_start, quad.astype(np.int32), 2.0 * qp.q[quad], np.zeros(n, dtype=np.int32))
-    except Exception as e:  # HiGHS refused the data: report, do not guess
-        return _failed(p, "error", t0, method, f"HiGHS refused the fixed-choice QP ({e})", choice)
-    got = highs.run(h)
+    h, got = _run(qp, qp.cap, time_limit, threads, seed, method)
+    if h is None:
+        return _failed(p, "error", t0, method, f"HiGHS refused the fixed-choice QP ({got})", choice)
+    if got == highs.Outcome.ERROR and method == "hipo" and highs.stalled_but_solved(h, IPM_STALL_ACCEPT):
+        # HiGHS's own residuals can be optimistic: the rows are checked here, and a point over a row is
+        # re-solved once with every row tightened by twice the excess, which puts it inside the rows.
+        method = "hipo-stalled"
+        excess = _excess(qp, np.asarray(h.getSolution().col_value, dtype=float))
+        if excess > 0:
+            h, got = _run(qp, qp.cap - 2.0 * excess, time_limit, threads, seed, "hipo")
+            if h is None or not (got == highs.Outcome.OPTIMAL or highs.stalled_but_solved(h, IPM_STALL_ACCEPT)) \
+                    or _excess(qp, np.asarray(h.getSolution().col_value, dtype=float)) > 0:
+                return _failed(p, "error", t0, method, "HiGHS's interior-point QP stalled outside the rows",
+                               choice)
+        got = highs.Outcome.OPTIMAL
     if got == highs.Outcome.INFEASIBLE:
         return _failed(p, "infeasible", t0, method, "the fixed-choice QP is infeasible", choice)
     if got == highs.Outcome.TIME_LIMIT:
@@ -175,6 +179,36 @@ def _solve_once(p: Problem, qp: _QP, choice: np.ndarray, time_limit: float | Non
         x, duals = exact
         method += "+kkt"
     return _result(p, qp, x, duals, "optimal", t0, method, choice)
+
+
+def _run(qp: _QP, cap: np.ndarray, time_limit: float | None, threads: int, seed: int, method: str):
+    """(HiGHS instance, its outcome) of the QP with row upper bounds ``cap``; (None, error) if refused."""
+    n = qp.ncol
+    h = highs.new(threads, seed, time_limit=highs.time_option(time_limit))
+    if method == "hipo":
+        h.setOptionValue("solver", "hipo")
+    start, index, value = highs.csc(n, qp.rows, qp.cols, qp.amounts)
+    quad = np.flatnonzero(qp.q > 0)
+    q_start = np.searchsorted(quad, np.arange(n + 1)).astype(np.int32)
+    hi = np.where(np.isfinite(qp.hi), qp.hi, highs.INF)
+    try:
+        h.passModel(n, cap.size, int(index.size), int(quad.size), 1, 1, 1, 0.0, -qp.c, qp.lo, hi,
+                    np.full(cap.size, -highs.INF), cap, start, index, value,
+                    q_start, quad.astype(np.int32), 2.0 * qp.q[quad], np.zeros(n, dtype=np.int32))
+    except Exception as e:  # HiGHS refused the data: report, do not guess
+        return None, e
+    return h, highs.run(h)
+
+
+def _excess(qp: _QP, x: np.ndarray) -> float:
+    """Largest amount by which ``x`` (clipped to its bounds) exceeds a row by more than a tenth of ``SLACK_ROW`` of the
+    row's scale (max(|capacity|, 1)); 0 if it is inside every row to that tolerance."""
+    if qp.cap.size == 0:
+        return 0.0
+    x = np.clip(x, qp.lo, qp.hi)
+    act = np.bincount(qp.rows, weights=qp.amounts * x[qp.cols], minlength=qp.cap.size)
+    over = act - qp.cap
+    return float(np.max(over, initial=0.0)) if np.any(over > 0.1 * SLACK_ROW * np.maximum(np.abs(qp.cap), 1.0)) else 0.0
 
 
 def _from_duals(qp: _QP, H: np.ndarray, x: np.ndarray, duals: np.ndarray) -> np.ndarray:
